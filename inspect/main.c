@@ -1,0 +1,54 @@
+/*
+ * inspect/main.c - the `modeband` command-line front end: dispatch to the
+ * subcommands in cmd_*.c.
+ */
+#include "commands.h"
+
+#include <stdio.h>
+#include <string.h>
+
+typedef struct {
+    const char *name;
+    int (*run)(int argc, char **argv);
+    const char *summary;
+} mb_command;
+
+static const mb_command commands[] = {
+    {"teach", mb_cmd_teach, "build a part model from good samples"},
+    {"model-info", mb_cmd_model_info, "print the summary of a model file"},
+};
+
+static void usage(FILE *f)
+{
+    fprintf(f, "usage: modeband COMMAND [OPTIONS]\n\n"
+               "modeband inspects flexible parts against a model taught from "
+               "good samples.\n\ncommands:\n");
+    for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
+        fprintf(f, "  %-12s %s\n", commands[i].name, commands[i].summary);
+    fprintf(f, "\n'modeband COMMAND --help' describes each command.\n"
+               "Exit status: 0 done, 1 failure, 2 usage error.\n"
+               "modeband is a quality-inspection tool, not a safety device.\n");
+}
+
+int main(int argc, char **argv)
+{
+    if (argc < 2) {
+        usage(stderr);
+        return MB_EXIT_USAGE;
+    }
+    if (!strcmp(argv[1], "--help") || !strcmp(argv[1], "-h") ||
+        !strcmp(argv[1], "help")) {
+        usage(stdout);
+        return MB_EXIT_OK;
+    }
+    if (!strcmp(argv[1], "--version")) {
+        printf("modeband " MB_VERSION "\n");
+        return MB_EXIT_OK;
+    }
+    for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
+        if (!strcmp(argv[1], commands[i].name))
+            return commands[i].run(argc - 1, argv + 1);
+    fprintf(stderr, "modeband: unknown command '%s'; 'modeband --help' lists the commands.\n",
+            argv[1]);
+    return MB_EXIT_USAGE;
+}
