@@ -1,0 +1,260 @@
+/*
+ * inspect/cmd_teach.c - `modeband teach`: build a part model from good
+ * samples and save it.
+ *
+ * From landmark point files (--points DIR): every *.json / *.csv file is one
+ * good part; all must have the same outline structure. The shapes are
+ * aligned by GPA, PCA gives the modes, and each training part is then fitted
+ * back (pose + b, unbounded) to report its Hotelling T^2, the figure a new
+ * part will be judged by.
+ */
+#include "cli.h"
+#include "commands.h"
+#include "error.h"
+#include "file_list.h"
+#include "model_file.h"
+#include "points_file.h"
+#include "shape_model.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+static const char *const teach_help =
+    "usage: modeband teach --points DIR --out MODEL [--variance F | --modes K]\n"
+    "                      [--source TEXT]\n"
+    "\n"
+    "Build a part model from good samples and write it to MODEL (JSON).\n"
+    "\n"
+    "  --points DIR    folder of landmark files, one good part per file:\n"
+    "                  *.json {\"format\":\"modeband-points\",\"version\":1,\n"
+    "                  \"outlines\":[[[x,y],...], ...]} or *.csv lines\n"
+    "                  'outline,x,y' (outline 0 = outer edge, 1.. = holes).\n"
+    "                  Every file must have the same outlines and point counts.\n"
+    "  --out MODEL     model file to write\n"
+    "  --variance F    keep the fewest modes explaining fraction F of the\n"
+    "                  shape variance (0 < F <= 1; default 0.98)\n"
+    "  --modes K       keep exactly K modes instead\n"
+    "  --source TEXT   note stored in the model (default: the folder name)\n"
+    "\n"
+    "Prints the modes kept, the variance each explains and the largest\n"
+    "training-part T^2. Exit status: 0 done, 1 failure, 2 usage error.\n";
+
+static int same_layout(const mb_layout *a, const mb_layout *b)
+{
+    if (a->n_outlines != b->n_outlines || a->n_points != b->n_points)
+        return 0;
+    for (int i = 0; i < a->n_outlines; i++)
+        if (a->counts[i] != b->counts[i])
+            return 0;
+    return 1;
+}
+
+static void layout_text(const mb_layout *l, char *buf, size_t len)
+{
+    size_t used = (size_t)snprintf(buf, len, "%d outline%s (", l->n_outlines,
+                                   l->n_outlines == 1 ? "" : "s");
+    for (int i = 0; i < l->n_outlines && used < len; i++)
+        used += (size_t)snprintf(buf + used, len - used, "%s%d", i ? "+" : "",
+                                 l->counts[i]);
+    if (used < len)
+        snprintf(buf + used, len - used, " points)");
+}
+
+/* Load every point file into one 2n x m column-major matrix. */
+static int load_point_sets(const mb_file_list *files, mb_layout *layout,
+                           double **shapes_out, char *err)
+{
+    double *shapes = NULL;
+    int d = 0;
+    for (int j = 0; j < files->count; j++) {
+        mb_layout l;
+        double *xy = NULL;
+        int rc = mb_points_load(files->paths[j], &l, &xy, err);
+        if (rc < 0) {
+            free(shapes);
+            return rc;
+        }
+        if (j == 0) {
+            *layout = l;
+            d = 2 * l.n_points;
+            shapes = malloc((size_t)d * (size_t)files->count * sizeof *shapes);
+            if (!shapes) {
+                free(xy);
+                return mb_err_set(err, MB_ENOMEM, "out of memory for %d shapes",
+                                  files->count);
+            }
+        } else if (!same_layout(layout, &l)) {
+            char a[256], b[256];
+            layout_text(&l, a, sizeof a);
+            layout_text(layout, b, sizeof b);
+            free(xy);
+            free(shapes);
+            return mb_err_set(err, MB_ESIZE,
+                              "%s: has %s but %s has %s; every part must have "
+                              "the same outlines and point counts",
+                              files->paths[j], a, files->paths[0], b);
+        }
+        memcpy(shapes + (size_t)j * (size_t)d, xy, (size_t)d * sizeof *xy);
+        free(xy);
+    }
+    *shapes_out = shapes;
+    return MB_OK;
+}
+
+static void print_summary(const mb_shape_model *m, const mb_file_list *files,
+                          const double *t2, const char *out)
+{
+    const mb_layout *l = mb_shape_model_layout(m);
+    const mb_train_info *ti = mb_shape_model_info(m);
+    const double *eig = mb_shape_model_eig(m);
+    double total = mb_shape_model_total_var(m), cum = 0.0;
+    char lt[256];
+    layout_text(l, lt, sizeof lt);
+    printf("taught from %d parts, %s\n", ti->n_samples, lt);
+    printf("alignment (GPA): %d iterations, %s\n", ti->gpa_iterations,
+           ti->gpa_converged ? "converged" : "stopped at the iteration cap");
+    printf("modes kept: %d of %d", mb_shape_model_n_modes(m),
+           mb_shape_model_n_eig(m));
+    if (ti->fixed_modes > 0)
+        printf(" (asked for %d)\n", ti->fixed_modes);
+    else
+        printf(" (to explain %.1f %% of the shape variance)\n",
+               100.0 * ti->variance_fraction);
+    printf("  mode  std.dev    variance %%  cumulative %%\n");
+    for (int i = 0; i < mb_shape_model_n_modes(m); i++) {
+        double f = total > 0 ? eig[i] / total : 0.0;
+        cum += f;
+        printf("  %4d  %9.3e  %10.2f  %12.2f\n", i + 1, sqrt(eig[i]),
+               100.0 * f, 100.0 * cum);
+    }
+    int worst = 0;
+    for (int j = 1; j < files->count; j++)
+        if (t2[j] > t2[worst])
+            worst = j;
+    printf("largest training-part T^2: %.3f (%s)\n", t2[worst],
+           files->paths[worst]);
+    printf("model written to %s\n", out);
+}
+
+static int teach_points(const char *dir, const char *out, double variance,
+                        int modes, const char *source)
+{
+    char err[MB_ERR_LEN] = "";
+    static const char *const exts[] = {".json", ".csv"};
+    mb_file_list files = {0, NULL};
+    mb_layout layout;
+    double *shapes = NULL, *t2 = NULL, *work = NULL, *b = NULL;
+    mb_shape_model *m = NULL;
+    int status = MB_EXIT_FAIL;
+
+    int rc = mb_file_list_dir(dir, exts, 2, &files, err);
+    if (rc < 0)
+        goto fail;
+    if (files.count < 3) {
+        snprintf(err, sizeof err,
+                 "%s: found %d point file%s (*.json, *.csv); teaching needs at "
+                 "least 3 good parts",
+                 dir, files.count, files.count == 1 ? "" : "s");
+        goto fail;
+    }
+    if ((rc = load_point_sets(&files, &layout, &shapes, err)) < 0)
+        goto fail;
+
+    mb_pca_params pp;
+    mb_pca_params_default(&pp);
+    if (modes > 0)
+        pp.fixed_modes = modes;
+    else
+        pp.variance_fraction = variance;
+    mb_train_info info;
+    memset(&info, 0, sizeof info);
+    time_t now = time(NULL);
+    struct tm tmv;
+    gmtime_r(&now, &tmv);
+    strftime(info.created, sizeof info.created, "%Y-%m-%dT%H:%M:%SZ", &tmv);
+    snprintf(info.source, sizeof info.source, "%s", source ? source : dir);
+    info.variance_fraction = modes > 0 ? 0.0 : variance;
+    info.fixed_modes = modes > 0 ? modes : 0;
+
+    int d = 2 * layout.n_points;
+    rc = mb_shape_model_build(shapes, d, &layout, files.count, NULL, &pp,
+                              &info, &m, err);
+    if (rc < 0)
+        goto fail;
+
+    /* Fit every training part back, unbounded, for its T^2. */
+    int k = mb_shape_model_n_modes(m);
+    t2 = malloc((size_t)files.count * sizeof *t2);
+    b = malloc((size_t)(k > 0 ? k : 1) * sizeof *b);
+    work = malloc((size_t)mb_shape_model_fit_work_size(m) * sizeof *work);
+    if (!t2 || !b || !work) {
+        snprintf(err, sizeof err, "out of memory");
+        goto fail;
+    }
+    mb_fit_params fp;
+    mb_fit_params_default(&fp);
+    fp.b_limit = 0.0;
+    for (int j = 0; j < files.count; j++) {
+        mb_fit_result res;
+        memset(b, 0, (size_t)k * sizeof *b);
+        rc = mb_shape_model_fit(m, shapes + (size_t)j * (size_t)d, NULL, &fp,
+                                b, &res, work);
+        if (rc < 0) {
+            snprintf(err, sizeof err, "%s: fitting the model back failed: %s",
+                     files.paths[j], mb_strerror(rc));
+            goto fail;
+        }
+        t2[j] = mb_shape_model_t2(m, b);
+    }
+    if ((rc = mb_model_save(out, m, err)) < 0)
+        goto fail;
+    print_summary(m, &files, t2, out);
+    status = MB_EXIT_OK;
+fail:
+    if (status != MB_EXIT_OK)
+        mb_cli_fail("teach", err[0] ? err : "teaching failed");
+    free(work);
+    free(b);
+    free(t2);
+    free(shapes);
+    mb_shape_model_close(m);
+    mb_file_list_free(&files);
+    return status;
+}
+
+int mb_cmd_teach(int argc, char **argv)
+{
+    const char *points = NULL, *out = NULL, *source = NULL;
+    double variance = 0.98;
+    int modes = 0, seen_var = 0, seen_modes = 0, help = 0, npos = 0;
+    const char *pos[1];
+    char err[MB_ERR_LEN];
+    const mb_opt opts[] = {
+        {"points", MB_OPT_STRING, &points, NULL},
+        {"out", MB_OPT_STRING, &out, NULL},
+        {"variance", MB_OPT_DOUBLE, &variance, &seen_var},
+        {"modes", MB_OPT_INT, &modes, &seen_modes},
+        {"source", MB_OPT_STRING, &source, NULL},
+    };
+    if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], pos, 0,
+                     &npos, &help, err) < 0)
+        return mb_cli_usage_error("teach", err);
+    if (help) {
+        fputs(teach_help, stdout);
+        return MB_EXIT_OK;
+    }
+    if (!points)
+        return mb_cli_usage_error("teach", "--points DIR is required");
+    if (!out)
+        return mb_cli_usage_error("teach", "--out MODEL is required");
+    if (seen_var && seen_modes)
+        return mb_cli_usage_error("teach", "give --variance or --modes, not both");
+    if (seen_var && !(variance > 0.0 && variance <= 1.0))
+        return mb_cli_usage_error("teach", "--variance must be in (0, 1]");
+    if (seen_modes && modes < 1)
+        return mb_cli_usage_error("teach", "--modes must be at least 1");
+    return teach_points(points, out, variance, seen_modes ? modes : 0, source);
+}
