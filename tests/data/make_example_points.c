@@ -74,7 +74,7 @@ int main(int argc, char **argv)
         double r = 8.0 + 0.3 * nrand();
         double ia = 12.0 * (1 + 0.01 * nrand()), ib = 8.0 * (1 + 0.01 * nrand());
         double hx = 22.0 + 0.15 * nrand(), hr = 3.0 + 0.05 * nrand();
-        double bend = 0.004 * nrand(); /* slight bow along x */
+        double bend = 0.0003 * nrand(); /* slight bow along x */
         /* placement, px at 0.1 mm/px */
         double ang = 2 * M_PI * urand(), sc = 10.0 * (1 + 0.004 * nrand());
         double tx = 640 + 200 * (urand() - 0.5), ty = 512 + 150 * (urand() - 0.5);
