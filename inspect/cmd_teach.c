@@ -8,6 +8,7 @@
  * back (pose + b, unbounded) to report its Hotelling T^2, the figure a new
  * part will be judged by.
  */
+#include "bands.h"
 #include "cli.h"
 #include "commands.h"
 #include "error.h"
@@ -15,6 +16,8 @@
 #include "model_file.h"
 #include "points_file.h"
 #include "shape_model.h"
+#include "stats.h"
+#include "teach_report.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -24,7 +27,7 @@
 
 static const char *const teach_help =
     "usage: modeband teach --points DIR --out MODEL [--variance F | --modes K]\n"
-    "                      [--source TEXT]\n"
+    "                      [--source TEXT] [--report FILE]\n"
     "\n"
     "Build a part model from good samples and write it to MODEL (JSON).\n"
     "\n"
@@ -38,6 +41,7 @@ static const char *const teach_help =
     "                  shape variance (0 < F <= 1; default 0.98)\n"
     "  --modes K       keep exactly K modes instead\n"
     "  --source TEXT   note stored in the model (default: the folder name)\n"
+    "  --report FILE   also write the teach report (HTML with pictures)\n"
     "\n"
     "Prints the modes kept, the variance each explains and the largest\n"
     "training-part T^2. Exit status: 0 done, 1 failure, 2 usage error.\n";
@@ -139,8 +143,40 @@ static void print_summary(const mb_shape_model *m, const mb_file_list *files,
     printf("model written to %s\n", out);
 }
 
+/* Print the learned limits and the leave-one-out false-reject estimate. */
+static void print_limits(const mb_limits *lim, int m, int k)
+{
+    printf("tolerance bands (learned leave-one-out, target false-reject "
+           "rate %.2f %% per part):\n", 100.0 * lim->alpha);
+    printf("  size (RMS radius): %.3f px, band %.3f .. %.3f px\n",
+           lim->size_mean, lim->size_lo, lim->size_hi);
+    for (int q = 0; q < lim->n_judged; q++)
+        printf("  mode %d: within +-%.2f sd\n", q + 1, lim->mode_band[q]);
+    printf("  T^2 over %d modes: limit %.2f (Phase II %.2f x %.2f)\n", k,
+           lim->t2_limit, lim->t2_phase2, lim->t2_inflation);
+    printf("  residual outside the model: limit %.3g (Jackson-Mudholkar "
+           "from the eigenvalues: %.3g)\n", lim->spe_limit, lim->spe_jm);
+    double lo = INFINITY, hi = 0.0;
+    for (int j = 0; j < lim->n_landmarks; j++) {
+        lo = fmin(lo, lim->local_limit[j]);
+        hi = fmax(hi, lim->local_limit[j]);
+    }
+    printf("  local deviation: %.2f .. %.2f px depending on the place\n", lo, hi);
+    printf("estimated false-reject rate (leave-one-out): %d of %d good parts "
+           "(%.1f %%; 95 %% upper bound %.1f %%)\n",
+           lim->loo_rejects, m, 100.0 * lim->frr_loo, 100.0 * lim->frr_upper);
+    int want = mb_bands_parts_advised(m, k, lim->alpha, 1.25);
+    if (want > m)
+        printf("advice: with %d parts the T^2 limit is %.0f %% wider than with "
+               "unlimited samples; about %d more good parts would bring it "
+               "within 25 %%\n",
+               m, 100.0 * (lim->t2_phase2 /
+                           mb_stats_chi2_quantile_upper(lim->alpha / (4 + lim->n_judged), k) - 1.0),
+               want - m);
+}
+
 static int teach_points(const char *dir, const char *out, double variance,
-                        int modes, const char *source)
+                        int modes, const char *source, const char *report)
 {
     char err[MB_ERR_LEN] = "";
     static const char *const exts[] = {".json", ".csv"};
@@ -212,6 +248,53 @@ static int teach_points(const char *dir, const char *out, double variance,
     if ((rc = mb_model_save(out, m, err)) < 0)
         goto fail;
     print_summary(m, &files, t2, out);
+
+    mb_limits lim;
+    mb_bands_scores sc;
+    memset(&lim, 0, sizeof lim);
+    memset(&sc, 0, sizeof sc);
+    int have_lim = 0;
+    if (files.count >= 5 && k <= files.count - 2) {
+        char berr[MB_ERR_LEN] = "";
+        if (mb_bands_learn(shapes, d, &layout, files.count, k, NULL, &lim, &sc,
+                           berr) == 0) {
+            have_lim = 1;
+            print_limits(&lim, files.count, k);
+        } else {
+            printf("tolerance bands not learned: %s\n", berr);
+        }
+    } else {
+        printf("tolerance bands not learned: they need at least 5 parts and "
+               "2 more parts than modes\n");
+    }
+    if (report) {
+        mb_report_part *rp = calloc((size_t)files.count, sizeof *rp);
+        if (rp) {
+            for (int j = 0; j < files.count; j++) {
+                const char *slash = strrchr(files.paths[j], '/');
+                rp[j].name = slash ? slash + 1 : files.paths[j];
+                rp[j].t2 = have_lim ? sc.t2[j] : t2[j];
+                rp[j].outlier = 0;
+            }
+            time_t now2 = time(NULL);
+            char when[64];
+            strftime(when, sizeof when, "taught %Y-%m-%d %H:%M UTC", gmtime(&now2));
+            mb_teach_report r = {0};
+            r.title = source ? source : dir;
+            r.generated = when;
+            r.model = m;
+            r.limits = have_lim ? &lim : NULL;
+            r.parts = rp;
+            r.n_parts = files.count;
+            if (mb_teach_report_write(report, &r, err) == 0)
+                printf("teach report: %s\n", report);
+            else
+                fprintf(stderr, "modeband teach: %s\n", err);
+            free(rp);
+        }
+    }
+    mb_bands_scores_free(&sc);
+    mb_limits_free(&lim);
     status = MB_EXIT_OK;
 fail:
     if (status != MB_EXIT_OK)
@@ -227,7 +310,7 @@ fail:
 
 int mb_cmd_teach(int argc, char **argv)
 {
-    const char *points = NULL, *out = NULL, *source = NULL;
+    const char *points = NULL, *out = NULL, *source = NULL, *report = NULL;
     double variance = 0.98;
     int modes = 0, seen_var = 0, seen_modes = 0, help = 0, npos = 0;
     const char *pos[1];
@@ -238,6 +321,7 @@ int mb_cmd_teach(int argc, char **argv)
         {"variance", MB_OPT_DOUBLE, &variance, &seen_var},
         {"modes", MB_OPT_INT, &modes, &seen_modes},
         {"source", MB_OPT_STRING, &source, NULL},
+        {"report", MB_OPT_STRING, &report, NULL},
     };
     if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], pos, 0,
                      &npos, &help, err) < 0)
@@ -256,5 +340,6 @@ int mb_cmd_teach(int argc, char **argv)
         return mb_cli_usage_error("teach", "--variance must be in (0, 1]");
     if (seen_modes && modes < 1)
         return mb_cli_usage_error("teach", "--modes must be at least 1");
-    return teach_points(points, out, variance, seen_modes ? modes : 0, source);
+    return teach_points(points, out, variance, seen_modes ? modes : 0, source,
+                        report);
 }
