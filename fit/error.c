@@ -22,6 +22,8 @@ const char *mb_strerror(int code)
     case MB_ESIZE: return "sizes do not match";
     case MB_ERANGE: return "value out of range";
     case MB_ENOTFOUND: return "not found";
+    case MB_EEDGE: return "part touches the frame edge";
+    case MB_EMULTIPLE: return "more than one part in view";
     default: return "unknown error code";
     }
 }

@@ -38,7 +38,9 @@ enum {
     MB_ESIZE = -13,      /**< sizes do not match (points, outlines, frames) */
     MB_ERANGE = -14,     /**< value outside its allowed range */
     MB_ENOTFOUND = -15,  /**< file or item not found */
-    MB_ECODE_MIN = -15
+    MB_EEDGE = -16,      /**< the part touches the frame edge (cut by it) */
+    MB_EMULTIPLE = -17,  /**< more than one part in view */
+    MB_ECODE_MIN = -17
 };
 
 /** One English phrase for a result code; never NULL. */

@@ -19,8 +19,10 @@
  * squares, optionally weighted per point (w may be NULL for equal weights).
  * Proper rotations only. If residual is not NULL it receives the weighted sum
  * of squared distances after the mapping.
- * Return value: 0; MB_EINVAL for bad arguments; MB_EDEGENERATE when src has
- * zero spread (all points equal) or the weights sum to zero.
+ * pose->scale is 0 when dst has no spread (every point maps to its centroid).
+ * Return value: 0; MB_EINVAL for bad arguments (NULL, n < 1, a negative or
+ * non-finite weight); MB_EDEGENERATE when src has zero spread (all points
+ * equal) or the weights sum to zero; MB_ENUMERIC for NaN/inf in the points.
  */
 int mb_procrustes_fit(const double *src, const double *dst, int n,
                       const double *w, mb_pose *pose, double *residual);

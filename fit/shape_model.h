@@ -119,7 +119,12 @@ int mb_shape_model_fit_work_size(const mb_shape_model *m);
  * inverse-posed targets, bounding b as asked. w: per-point weights or NULL.
  * b: in/out, k values (start value on entry; zeros are fine). res: out.
  * work: mb_shape_model_fit_work_size(m) doubles. Allocates nothing.
- * Return value: 0 (see res->converged); MB_EINVAL; MB_EDEGENERATE.
+ * Each step projects the inverse-posed targets into the tangent plane of the
+ * mean (scaled so that (y - mean) . mean = 0), as the model was built in
+ * (mb_gpa_params.tangent); res->rms is over all points, unweighted.
+ * Return value: 0 (see res->converged); MB_EINVAL; MB_EDEGENERATE (targets
+ * without spread, weights summing to zero); MB_ENUMERIC (NaN/inf in target
+ * or b).
  */
 int mb_shape_model_fit(const mb_shape_model *m, const double *target,
                        const double *w, const mb_fit_params *p, double *b,

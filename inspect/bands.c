@@ -176,18 +176,31 @@ static void derive(const loo_scores *s, int excl, double alpha,
         lim->spe_limit = 2.0 * mu;
     }
 
+    /* Per landmark: the spread pooled over +-w neighbours (stable), but
+       never below the landmark's own spread or its next neighbours' (a
+       corner or a cut end varies more than the arc beside it, and pooling
+       alone would hide that). Quantile with the degrees of freedom of the
+       own estimate (m - 1), the conservative of the two. */
     int w = p->local_window;
     int pooled = mm * (2 * w + 1);
-    double tl = mb_stats_t_quantile(1.0 - a / (2.0 * s->n), pooled - 1) * infl;
+    double tl = mb_stats_t_quantile(1.0 - a / (2.0 * s->n), mm - 1) * infl;
     for (int j = 0; j < s->n; j++) {
-        double acc = 0.0;
+        double acc = 0.0, own = 0.0;
         for (int off = -w; off <= w; off++) {
             int jj = neighbour(s->layout, j, off);
-            acc += s->sq[jj];
+            double v = s->sq[jj];
             if (excl >= 0)
-                acc -= s->dev[(size_t)excl * s->n + jj] * s->dev[(size_t)excl * s->n + jj];
+                v -= s->dev[(size_t)excl * s->n + jj] * s->dev[(size_t)excl * s->n + jj];
+            if (v < 0)
+                v = 0;
+            acc += v;
+            if (off >= -1 && off <= 1 && v / mm > own)
+                own = v / mm;
         }
-        double sig = sqrt((acc > 0 ? acc : 0) / pooled);
+        double vj = acc / pooled;
+        if (own > vj)
+            vj = own;
+        double sig = sqrt(vj);
         lim->local_sigma[j] = sig;
         lim->local_limit[j] = fmax(p->local_floor, tl * sig);
     }

@@ -17,7 +17,10 @@
 #include "points_file.h"
 #include "shape_model.h"
 #include "stats.h"
+#include "teach_images.h"
 #include "teach_report.h"
+
+#include <unistd.h>
 
 #include <math.h>
 #include <stdio.h>
@@ -26,11 +29,27 @@
 #include <time.h>
 
 static const char *const teach_help =
-    "usage: modeband teach --points DIR --out MODEL [--variance F | --modes K]\n"
+    "usage: modeband teach --images DIR --out MODEL [--mm-per-px F]\n"
+    "                      [--variance F | --modes K] [--points N]\n"
+    "                      [--alpha F] [--keep-outliers] [--name TEXT]\n"
+    "                      [--report FILE]\n"
+    "       modeband teach --points DIR --out MODEL [--variance F | --modes K]\n"
     "                      [--source TEXT] [--report FILE]\n"
     "\n"
     "Build a part model from good samples and write it to MODEL (JSON).\n"
     "\n"
+    "  --images DIR    folder of images of good parts (*.pgm, *.png), one part\n"
+    "                  per image, all of one size and lighting. Outlines are\n"
+    "                  found and matched automatically; at least 10 images,\n"
+    "                  20 or more advised. Images that cannot be used are\n"
+    "                  listed with the reason.\n"
+    "  --mm-per-px F   scale of the images, to report sizes in mm\n"
+    "  --points N      with --images: landmarks over all outlines (default\n"
+    "                  256; --landmarks N is the same)\n"
+    "  --alpha F       false-reject target per good part (default 0.002)\n"
+    "  --keep-outliers keep training parts that look unusual (default: they\n"
+    "                  are listed and left out)\n"
+    "  --name TEXT     part name stored in the model (default: the folder)\n"
     "  --points DIR    folder of landmark files, one good part per file:\n"
     "                  *.json {\"format\":\"modeband-points\",\"version\":1,\n"
     "                  \"outlines\":[[[x,y],...], ...]} or *.csv lines\n"
@@ -308,20 +327,164 @@ fail:
     return status;
 }
 
+static void print_modes(const mb_shape_model *m)
+{
+    const double *eig = mb_shape_model_eig(m);
+    double total = mb_shape_model_total_var(m), cum = 0.0;
+    printf("  mode  std.dev    variance %%  cumulative %%\n");
+    for (int i = 0; i < mb_shape_model_n_modes(m); i++) {
+        double f = total > 0 ? eig[i] / total : 0.0;
+        cum += f;
+        printf("  %4d  %9.3e  %10.2f  %12.2f\n", i + 1, sqrt(eig[i]),
+               100.0 * f, 100.0 * cum);
+    }
+}
+
+static const char *base_name(const char *path)
+{
+    const char *s = strrchr(path, '/');
+    return s ? s + 1 : path;
+}
+
+static void write_images_report(const char *report, const mb_part_model *pm,
+                                const mb_teach_log *log, const char *title)
+{
+    char err[MB_ERR_LEN];
+    mb_report_part *rp = calloc((size_t)(log->n_used + 1), sizeof *rp);
+    mb_report_skip *rs = calloc((size_t)(log->n_skipped + 1), sizeof *rs);
+    char (*notes)[96] = calloc((size_t)(log->n_used + 1), sizeof *notes);
+    if (!rp || !rs || !notes) {
+        fprintf(stderr, "modeband teach: out of memory for the report\n");
+        goto done;
+    }
+    for (int j = 0; j < log->n_used; j++) {
+        rp[j].name = base_name(log->used[j]);
+        rp[j].t2 = log->scores.t2[j];
+        int f = log->scores.fails[j];
+        if (f)
+            snprintf(notes[j], sizeof notes[j], "leave-one-out would reject:%s%s%s%s%s",
+                     f & MB_BAND_SIZE ? " size" : "", f & MB_BAND_MODE ? " mode" : "",
+                     f & MB_BAND_T2 ? " T^2" : "", f & MB_BAND_SPE ? " residual" : "",
+                     f & MB_BAND_LOCAL ? " local deviation" : "");
+        rp[j].note = notes[j];
+    }
+    for (int j = 0; j < log->n_skipped; j++) {
+        rs[j].name = base_name(log->skips[j].path);
+        rs[j].reason = log->skips[j].reason;
+    }
+    time_t now = time(NULL);
+    char when[64];
+    strftime(when, sizeof when, "taught %Y-%m-%d %H:%M UTC", gmtime(&now));
+    mb_teach_report r = {0};
+    r.title = title;
+    r.generated = when;
+    r.model = pm->shape;
+    r.limits = pm->has_limits ? &pm->limits : NULL;
+    r.mm_per_px = pm->imaging.mm_per_px;
+    r.parts = rp;
+    r.n_parts = log->n_used;
+    r.skipped = rs;
+    r.n_skipped = log->n_skipped;
+    if (mb_teach_report_write(report, &r, err) == 0)
+        printf("teach report: %s\n", report);
+    else
+        fprintf(stderr, "modeband teach: %s\n", err);
+done:
+    free(notes);
+    free(rs);
+    free(rp);
+}
+
+static int teach_from_images(const char *dir, const char *out,
+                             const mb_teach_params *tp, const char *report)
+{
+    char err[MB_ERR_LEN] = "";
+    mb_part_model pm;
+    mb_teach_log log;
+    printf("teaching from the images in %s\n", dir);
+    fflush(stdout);
+    int rc = mb_teach_images(dir, tp, &pm, &log, err);
+    if (log.n_skipped > 0) {
+        printf("images not used: %d\n", log.n_skipped);
+        for (int i = 0; i < log.n_skipped; i++)
+            printf("  %s: %s\n", base_name(log.skips[i].path), log.skips[i].reason);
+    }
+    if (rc < 0) {
+        mb_teach_log_free(&log);
+        return mb_cli_fail("teach", err);
+    }
+    const mb_shape_model *sm = pm.shape;
+    const mb_layout *l = mb_shape_model_layout(sm);
+    const mb_train_info *ti = mb_shape_model_info(sm);
+    int k = mb_shape_model_n_modes(sm);
+    char lt[256];
+    layout_text(l, lt, sizeof lt);
+    printf("images: %d found, %d used, %d skipped (%d of them outliers)\n",
+           log.n_images, log.n_used, log.n_skipped, log.n_outliers);
+    printf("part: %s on a %s field, %dx%d px frames\n",
+           pm.imaging.dark_part ? "dark" : "bright",
+           pm.imaging.dark_part ? "bright" : "dark", pm.imaging.width,
+           pm.imaging.height);
+    printf("outlines: %s (outer edge first, then holes)\n", lt);
+    printf("edges: median blur %.2f px, contrast %.0f grey levels\n", log.blur,
+           log.contrast);
+    printf("alignment (GPA): %d iterations, %s\n", ti->gpa_iterations,
+           ti->gpa_converged ? "converged" : "stopped at the iteration cap");
+    printf("modes kept: %d", k);
+    if (tp->modes > 0)
+        printf(" (asked for %d)\n", tp->modes);
+    else if (log.modes_capped)
+        printf(" (capped at a third of the parts; %.1f %% of the variance "
+               "would need more)\n", 100.0 * tp->variance);
+    else
+        printf(" (to explain %.1f %% of the shape variance)\n", 100.0 * tp->variance);
+    print_modes(sm);
+    print_limits(&pm.limits, log.n_used, k);
+    if (tp->mm_per_px > 0)
+        printf("  size band in mm (RMS radius): %.3f .. %.3f mm\n",
+               pm.limits.size_lo * tp->mm_per_px, pm.limits.size_hi * tp->mm_per_px);
+    if (log.n_used < MB_TEACH_GOOD_IMAGES)
+        printf("warning: only %d good parts were usable; %d or more are "
+               "advised for stable limits\n", log.n_used, MB_TEACH_GOOD_IMAGES);
+    printf("time: outlines %.2f s, correspondence %.2f s, model %.2f s, "
+           "bands %.2f s, profiles %.2f s, total %.2f s\n",
+           log.seconds[0], log.seconds[1], log.seconds[2], log.seconds[3],
+           log.seconds[4], log.seconds[5]);
+    int status = MB_EXIT_OK;
+    if (mb_part_model_save(out, &pm, err) < 0) {
+        status = mb_cli_fail("teach", err);
+    } else {
+        printf("model written to %s\n", out);
+        if (report)
+            write_images_report(report, &pm, &log, pm.name);
+    }
+    mb_part_model_free(&pm);
+    mb_teach_log_free(&log);
+    return status;
+}
+
 int mb_cmd_teach(int argc, char **argv)
 {
-    const char *points = NULL, *out = NULL, *source = NULL, *report = NULL;
-    double variance = 0.98;
+    const char *points = NULL, *images = NULL, *out = NULL, *source = NULL,
+               *report = NULL, *name = NULL;
+    double variance = 0.98, mm_per_px = 0.0, alpha = 0.002;
     int modes = 0, seen_var = 0, seen_modes = 0, help = 0, npos = 0;
+    int budget = 256, keep = 0, seen_mm = 0;
     const char *pos[1];
     char err[MB_ERR_LEN];
     const mb_opt opts[] = {
         {"points", MB_OPT_STRING, &points, NULL},
+        {"images", MB_OPT_STRING, &images, NULL},
         {"out", MB_OPT_STRING, &out, NULL},
         {"variance", MB_OPT_DOUBLE, &variance, &seen_var},
         {"modes", MB_OPT_INT, &modes, &seen_modes},
         {"source", MB_OPT_STRING, &source, NULL},
         {"report", MB_OPT_STRING, &report, NULL},
+        {"mm-per-px", MB_OPT_DOUBLE, &mm_per_px, &seen_mm},
+        {"landmarks", MB_OPT_INT, &budget, NULL},
+        {"alpha", MB_OPT_DOUBLE, &alpha, NULL},
+        {"keep-outliers", MB_OPT_FLAG, &keep, NULL},
+        {"name", MB_OPT_STRING, &name, NULL},
     };
     if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], pos, 0,
                      &npos, &help, err) < 0)
@@ -330,8 +493,18 @@ int mb_cmd_teach(int argc, char **argv)
         fputs(teach_help, stdout);
         return MB_EXIT_OK;
     }
-    if (!points)
-        return mb_cli_usage_error("teach", "--points DIR is required");
+    if (images && points) {
+        /* with --images, --points is the landmark budget (a number) */
+        char *end = NULL;
+        long v = strtol(points, &end, 10);
+        if (end == points || *end || v < 1 || v > 100000)
+            return mb_cli_usage_error("teach", "with --images, --points expects a "
+                                               "number of landmarks");
+        budget = (int)v;
+        points = NULL;
+    }
+    if (!points == !images)
+        return mb_cli_usage_error("teach", "give either --images DIR or --points DIR");
     if (!out)
         return mb_cli_usage_error("teach", "--out MODEL is required");
     if (seen_var && seen_modes)
@@ -340,6 +513,24 @@ int mb_cmd_teach(int argc, char **argv)
         return mb_cli_usage_error("teach", "--variance must be in (0, 1]");
     if (seen_modes && modes < 1)
         return mb_cli_usage_error("teach", "--modes must be at least 1");
-    return teach_points(points, out, variance, seen_modes ? modes : 0, source,
-                        report);
+    if (seen_mm && !(mm_per_px > 0.0))
+        return mb_cli_usage_error("teach", "--mm-per-px must be a positive number");
+    if (!(alpha > 0.0 && alpha < 0.5))
+        return mb_cli_usage_error("teach", "--alpha must be between 0 and 0.5");
+    if (budget < 16 || budget > 4096)
+        return mb_cli_usage_error("teach", "--landmarks must be between 16 and 4096");
+    if (points)
+        return teach_points(points, out, variance, seen_modes ? modes : 0,
+                            source, report);
+    mb_teach_params tp;
+    mb_teach_params_default(&tp);
+    tp.variance = variance;
+    tp.modes = seen_modes ? modes : 0;
+    tp.points = budget;
+    tp.mm_per_px = mm_per_px;
+    tp.keep_outliers = keep;
+    tp.bands.alpha = alpha;
+    tp.name = name;
+    tp.progress = isatty(STDERR_FILENO) ? stderr : NULL;
+    return teach_from_images(images, out, &tp, report);
 }

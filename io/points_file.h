@@ -23,8 +23,11 @@
  * malloc'd array of 2 * layout->n_points doubles (interleaved) the caller
  * frees, and layout describes its outlines.
  * Return value: 0; MB_EIO/MB_ENOTFOUND; MB_EFORMAT (syntax, field, too few
- * points in an outline, too many outlines); MB_ENUMERIC (NaN/inf);
- * MB_ENOMEM. err names the file, the line or field, and what was expected.
+ * points in an outline, too many outlines, a name not ending in .json or
+ * .csv); MB_EVERSION (JSON: another "format" or an unknown "version");
+ * MB_ENUMERIC (NaN/inf, or null where a number belongs); MB_ENOMEM. err
+ * names the file, the line or field, and what was expected. On failure
+ * *xy is NULL.
  */
 int mb_points_load(const char *path, mb_layout *layout, double **xy, char *err);
 
@@ -32,7 +35,9 @@ int mb_points_load(const char *path, mb_layout *layout, double **xy, char *err);
 int mb_points_parse(const char *text, size_t len, int is_csv, const char *name,
                     mb_layout *layout, double **xy, char *err);
 
-/** Write a JSON point file. Return value: 0, MB_EINVAL, MB_EIO. */
+/** Write a JSON point file (path.tmp, fsync, rename), coordinates exact.
+    Return value: 0, MB_EINVAL (bad layout, non-finite coordinate), MB_EIO,
+    MB_ENOMEM. */
 int mb_points_save(const char *path, const mb_layout *layout, const double *xy,
                    char *err);
 

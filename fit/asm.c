@@ -1,0 +1,803 @@
+/*
+ * fit/asm.c - multi-resolution Active Shape Model search and the sub-pixel
+ * measurement of the outline (see asm.h).
+ *
+ * Search (Cootes, Taylor, Cooper, Graham, CVIU 61(1), 1995, section 6;
+ * Cootes, Taylor, Lanitis, BMVC 1994): at level L a landmark at full-res
+ * point p with normal n samples the grey levels
+ *     G_j = I_L(p / 2^L + t_j n),  t_j = j - (ns + k + 1/2),  j = 0 .. 2(ns+k)+1
+ * once; the candidate profile for a shift s (-ns .. ns) is the window of
+ * 2k+1 differences G_{j+1} - G_j centred at t = s, normalised by its sum of
+ * absolute values (fit/profile.h), so one landmark costs 2(ns+k)+2 bilinear
+ * samples and 2ns+1 Mahalanobis evaluations. The best shift s* is refined
+ * by the vertex of the parabola through the costs at s*-1, s*, s*+1 (kept
+ * within half a sample), and the landmark's target is p + s* 2^L n.
+ *
+ * Fitting with left-out points: mb_shape_model_fit weights only the pose,
+ * not the projection onto the modes, so points that must not count (no edge
+ * found, or an outlier such as a nick) are instead given the model's own
+ * current position as their target and the fit is repeated a few times
+ * (the missing-data iteration of EM, Dempster, Laird, Rubin, JRSS B 39,
+ * 1977): the other points then decide pose and b alone.
+ *
+ * Sub-pixel edge: a Gaussian-blurred step crosses the mid level between its
+ * two plateaus at the edge, and near that point the profile is almost
+ * straight (its inflection), so linear interpolation between the two
+ * samples either side of the mid level is nearly unbiased; the noise of one
+ * point is about sigma_noise / slope, slope ~ C / (2.5 sigma_blur). The mid
+ * level is taken from the profile itself, 3 and 4 px either side of the
+ * strongest-nearest derivative peak, so uneven illumination does not bias
+ * it.
+ */
+#include "asm.h"
+
+#include "error.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Gauss-Newton steps of the final fit, and its prior on b (px^2 per
+   sd^2; see fit_measured). */
+#define FIT_STEPS 8
+#define FIT_PRIOR 1e-4
+
+struct mb_asm {
+    const mb_shape_model *sm;
+    const mb_profile_model *pm;
+    mb_asm_params p;
+    int width, height;
+    int n, k, dim, plen, half; /* landmarks, modes, 2n, 2k+1, k */
+    int coarsest, finest;
+    double polarity;  /* +1 when grey rises from part to background */
+    double contrast;  /* |part - back| taught */
+    size_t bytes;
+    /* state */
+    double *b, *b_best, *b_sd;
+    double *xm;       /* 2n model frame */
+    double *pts;      /* 2n image px, current model outline */
+    double *nrm;      /* 2n normals */
+    double *target;   /* 2n */
+    double *meas;     /* 2n measured */
+    double *dist;     /* n */
+    double *absd;     /* n scratch for the medians */
+    double *kappa;    /* n signed curvature of the model outline */
+    double blur;      /* edge blur estimated by the last measurement, px */
+    double radius;    /* RMS radius of the mean shape, model units */
+    double *gn_a, *gn_g, *gn_row; /* final fit: (4+k)^2, 4+k, 4+k */
+    uint8_t *valid;   /* n */
+    uint8_t *use;     /* n: in the final fit */
+    double *fit_work; /* mb_shape_model_fit_work_size */
+    double *grey;     /* samples along one normal */
+    double *diff;     /* differences along one normal */
+    double *g;        /* one profile */
+    double *cwork;    /* profile cost scratch */
+    double *cost;     /* 2ns + 1 */
+};
+
+void mb_asm_params_default(mb_asm_params *p)
+{
+    if (!p)
+        return;
+    p->search_range = 3;
+    p->max_iter = 10;
+    p->start_iter = 3;
+    p->conv_fraction = 0.95;
+    p->coarsest_level = -1;
+    p->finest_level = 1;
+    p->b_limit = 6.0;
+    p->b_limit_search = 3.0;
+    p->fit_iter = 3;
+    p->refine_range = 8;
+    p->edge_fraction = 0.1;
+    p->outlier_px = 1.0;
+}
+
+void mb_asm_close(mb_asm *a)
+{
+    if (!a)
+        return;
+    free(a->b);
+    free(a->b_best);
+    free(a->b_sd);
+    free(a->xm);
+    free(a->pts);
+    free(a->nrm);
+    free(a->target);
+    free(a->meas);
+    free(a->dist);
+    free(a->absd);
+    free(a->kappa);
+    free(a->gn_a);
+    free(a->gn_g);
+    free(a->gn_row);
+    free(a->valid);
+    free(a->use);
+    free(a->fit_work);
+    free(a->grey);
+    free(a->diff);
+    free(a->g);
+    free(a->cwork);
+    free(a->cost);
+    free(a);
+}
+
+size_t mb_asm_workspace_bytes(const mb_asm *a)
+{
+    return a ? a->bytes : 0;
+}
+
+static void *take(mb_asm *a, size_t count, size_t size)
+{
+    a->bytes += count * size;
+    return calloc(count, size);
+}
+
+int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
+                  int width, int height, const mb_asm_params *p, mb_asm **out,
+                  char *err)
+{
+    mb_asm_params def;
+    if (out)
+        *out = NULL;
+    if (!p) {
+        mb_asm_params_default(&def);
+        p = &def;
+    }
+    if (!sm || !pm || !out)
+        return mb_err_set(err, MB_EINVAL, "search: missing argument");
+    if (width < 1 || height < 1 || width > 65536 || height > 65536)
+        return mb_err_set(err, MB_EINVAL, "search: frame size %d x %d out of "
+                          "range", width, height);
+    const mb_layout *lay = mb_shape_model_layout(sm);
+    const mb_layout *play = mb_profile_model_layout(pm);
+    if (lay->n_points != play->n_points || lay->n_outlines != play->n_outlines)
+        return mb_err_set(err, MB_ESIZE, "search: the shape model has %d "
+                          "points, the profile model %d", lay->n_points,
+                          play->n_points);
+    for (int o = 0; o < lay->n_outlines; o++)
+        if (lay->counts[o] != play->counts[o])
+            return mb_err_set(err, MB_ESIZE, "search: outline %d has %d "
+                              "points in the shape model, %d in the profile "
+                              "model", o, lay->counts[o], play->counts[o]);
+    const int plevels = mb_profile_model_params(pm)->levels;
+    int coarsest = p->coarsest_level < 0 ? plevels - 1 : p->coarsest_level;
+    if (p->search_range < 1 || p->search_range > 32 || p->max_iter < 1 ||
+        p->start_iter < 1 || p->start_iter > p->max_iter ||
+        !(p->conv_fraction >= 0.0 && p->conv_fraction <= 1.0) ||
+        coarsest >= plevels || p->finest_level < 0 ||
+        p->finest_level > coarsest || !(p->b_limit >= 0.0) ||
+        !(p->b_limit_search >= 0.0) || p->fit_iter < 1 ||
+        p->refine_range < 1 || p->refine_range > 64 ||
+        !(p->edge_fraction >= 0.0 && p->edge_fraction <= 1.0) ||
+        !(p->outlier_px > 0.0))
+        return mb_err_set(err, MB_EINVAL, "search: a parameter is out of "
+                          "range (levels %d..%d of a %d-level profile model)",
+                          coarsest, p->finest_level, plevels);
+    const mb_profile_stats *st = mb_profile_model_stats(pm);
+
+    mb_asm *a = calloc(1, sizeof *a);
+    if (!a)
+        return mb_err_set(err, MB_ENOMEM, "search: out of memory");
+    a->sm = sm;
+    a->pm = pm;
+    a->p = *p;
+    a->width = width;
+    a->height = height;
+    a->n = lay->n_points;
+    a->dim = 2 * a->n;
+    a->k = mb_shape_model_n_modes(sm);
+    a->plen = mb_profile_model_len(pm);
+    a->half = (a->plen - 1) / 2;
+    a->coarsest = coarsest;
+    a->finest = p->finest_level;
+    a->polarity = st->back_grey >= st->part_grey ? 1.0 : -1.0;
+    a->contrast = fabs(st->back_grey - st->part_grey);
+    a->radius = 1.0 / sqrt((double)a->n); /* the mean shape has unit norm */
+
+    const size_t n = (size_t)a->n, d = (size_t)a->dim, k = (size_t)a->k;
+    const int ns = p->search_range;
+    size_t samples = (size_t)(2 * (ns + a->half) + 2);
+    size_t rsamples = (size_t)(2 * (p->refine_range + 6) + 1);
+    if (rsamples > samples)
+        samples = rsamples;
+    a->b = take(a, k, sizeof(double));
+    a->b_best = take(a, k, sizeof(double));
+    a->b_sd = take(a, k, sizeof(double));
+    a->xm = take(a, d, sizeof(double));
+    a->pts = take(a, d, sizeof(double));
+    a->nrm = take(a, d, sizeof(double));
+    a->target = take(a, d, sizeof(double));
+    a->meas = take(a, d, sizeof(double));
+    a->dist = take(a, n, sizeof(double));
+    a->absd = take(a, n, sizeof(double));
+    a->kappa = take(a, n, sizeof(double));
+    a->gn_a = take(a, (4 + k) * (4 + k), sizeof(double));
+    a->gn_g = take(a, 4 + k, sizeof(double));
+    a->gn_row = take(a, 4 + k, sizeof(double));
+    a->valid = take(a, n, 1);
+    a->use = take(a, n, 1);
+    a->fit_work = take(a, (size_t)mb_shape_model_fit_work_size(sm), sizeof(double));
+    a->grey = take(a, samples, sizeof(double));
+    a->diff = take(a, samples, sizeof(double));
+    a->g = take(a, (size_t)a->plen, sizeof(double));
+    a->cwork = take(a, (size_t)a->plen, sizeof(double));
+    a->cost = take(a, (size_t)(2 * ns + 1), sizeof(double));
+    if (!a->b || !a->b_best || !a->b_sd || !a->xm || !a->pts || !a->nrm ||
+        !a->target || !a->meas || !a->dist || !a->absd || !a->kappa || !a->gn_a || !a->gn_g ||
+        !a->gn_row || !a->valid ||
+        !a->use || !a->fit_work || !a->grey || !a->diff || !a->g ||
+        !a->cwork || !a->cost)
+        goto fail;
+    *out = a;
+    return MB_OK;
+fail:
+    mb_asm_close(a);
+    return mb_err_set(err, MB_ENOMEM, "search: out of memory");
+}
+
+/* Model outline in the image for pose and a->b, with its normals. */
+static void place(mb_asm *a, const mb_pose *pose)
+{
+    mb_shape_model_reconstruct(a->sm, a->b, a->xm);
+    mb_pose_apply(pose, a->xm, a->n, a->pts);
+    /* A degenerate outline (zero-length chord) leaves a zero normal: that
+       landmark then simply does not move. */
+    (void)mb_profile_normals(mb_shape_model_layout(a->sm), a->pts, a->nrm);
+}
+
+/* Is the pose still a sane one for this frame? */
+static int pose_sane(const mb_asm *a, const mb_pose *pose, double scale0)
+{
+    if (!isfinite(pose->tx) || !isfinite(pose->ty) || !isfinite(pose->angle) ||
+        !(pose->scale > 0.5 * scale0) || !(pose->scale < 2.0 * scale0))
+        return 0;
+    /* model centroid is the origin of the model frame */
+    return pose->tx > -0.5 * a->width && pose->tx < 1.5 * a->width &&
+           pose->ty > -0.5 * a->height && pose->ty < 1.5 * a->height;
+}
+
+/*
+ * One search iteration on level `level`: move every landmark to its best
+ * profile match (targets), fit pose and b. Returns 0 and sets *frac (share
+ * of landmarks within the central half of the range) and *mean_cost; or a
+ * negative code when the fit breaks down.
+ */
+static int iterate(mb_asm *a, const mb_image *img, int level, double blim,
+                   mb_pose *pose, double *frac, double *mean_cost)
+{
+    const int ns = a->p.search_range, k = a->half, plen = a->plen;
+    const int m = 2 * (ns + k) + 2; /* grey samples */
+    const double down = 1.0 / (double)(1 << level), up = (double)(1 << level);
+    int central = 0;
+    double total = 0.0;
+    place(a, pose);
+    for (int i = 0; i < a->n; i++) {
+        const double x = a->pts[2 * i] * down, y = a->pts[2 * i + 1] * down;
+        const double nx = a->nrm[2 * i], ny = a->nrm[2 * i + 1];
+        double t = -(double)(ns + k) - 0.5;
+        for (int j = 0; j < m; j++, t += 1.0)
+            a->grey[j] = mb_pyramid_sample(img, x + t * nx, y + t * ny);
+        for (int j = 0; j + 1 < m; j++)
+            a->diff[j] = a->grey[j + 1] - a->grey[j];
+        int best = 0;
+        for (int s = 0; s <= 2 * ns; s++) {
+            const double *w = a->diff + s; /* window centred at shift s - ns */
+            double norm = 0.0;
+            for (int j = 0; j < plen; j++)
+                norm += fabs(w[j]);
+            double inv = norm > 0.0 ? 1.0 / norm : 0.0;
+            for (int j = 0; j < plen; j++)
+                a->g[j] = w[j] * inv;
+            a->cost[s] = mb_profile_cost(a->pm, level, i, a->g, a->cwork);
+            if (a->cost[s] < a->cost[best])
+                best = s;
+        }
+        double shift = best - ns;
+        if (best > 0 && best < 2 * ns) {
+            double c0 = a->cost[best - 1], c1 = a->cost[best], c2 = a->cost[best + 1];
+            double den = c0 - 2.0 * c1 + c2;
+            if (den > 0.0) {
+                double off = 0.5 * (c0 - c2) / den;
+                shift += off > 0.5 ? 0.5 : off < -0.5 ? -0.5 : off;
+            }
+        }
+        if (2 * abs(best - ns) <= ns)
+            central++;
+        total += a->cost[best];
+        a->target[2 * i] = a->pts[2 * i] + shift * up * nx;
+        a->target[2 * i + 1] = a->pts[2 * i + 1] + shift * up * ny;
+    }
+    mb_fit_params fp;
+    mb_fit_params_default(&fp);
+    fp.b_limit = blim;
+    fp.max_iter = a->p.fit_iter;
+    fp.tol = 1e-6;
+    mb_fit_result fr;
+    int rc = mb_shape_model_fit(a->sm, a->target, NULL, &fp, a->b, &fr,
+                                a->fit_work);
+    if (rc != MB_OK)
+        return rc;
+    *pose = fr.pose;
+    *frac = (double)central / a->n;
+    *mean_cost = total / a->n;
+    return MB_OK;
+}
+
+/* Search one level from *pose, a->b. Returns 1 converged, 0 not, < 0 when
+   the search broke down. */
+static int search_level(mb_asm *a, const mb_pyramid *pyr, int level,
+                        int max_iter, mb_pose *pose, double scale0, int *iters,
+                        double *mean_cost)
+{
+    const mb_image *img = mb_pyramid_level(pyr, level);
+    const double blim = level == a->finest ? a->p.b_limit : a->p.b_limit_search;
+    for (int it = 1; it <= max_iter; it++) {
+        double frac;
+        int rc = iterate(a, img, level, blim, pose, &frac, mean_cost);
+        (*iters)++;
+        if (rc != MB_OK || !pose_sane(a, pose, scale0))
+            return -1;
+        if (frac >= a->p.conv_fraction)
+            return 1;
+    }
+    return 0;
+}
+
+/* k-th smallest of v[0..n-1] (reorders v); Hoare's selection. */
+static double select_kth(double *v, int n, int kth)
+{
+    int lo = 0, hi = n - 1;
+    while (lo < hi) {
+        double pivot = v[(lo + hi) / 2];
+        int i = lo, j = hi;
+        while (i <= j) {
+            while (v[i] < pivot)
+                i++;
+            while (v[j] > pivot)
+                j--;
+            if (i <= j) {
+                double t = v[i];
+                v[i] = v[j];
+                v[j] = t;
+                i++;
+                j--;
+            }
+        }
+        if (kth <= j)
+            hi = j;
+        else if (kth >= i)
+            lo = i;
+        else
+            break;
+    }
+    return v[kth];
+}
+
+/* Tangential offset (px) of the two side lines averaged with the normal
+   itself when measuring an edge. */
+#define SIDE 0.75
+
+/*
+ * Sub-pixel edge along one normal at full resolution, from the mean of the
+ * grey profiles on the normal and on two lines SIDE px either side of it.
+ * Returns 1, the signed position *t_out (px along the normal from the model
+ * point) and *ratio (edge strength over contrast, for the blur estimate)
+ * when an edge of the taught polarity is found, else 0.
+ */
+static int edge_along(mb_asm *a, const mb_image *img, double x, double y,
+                      double nx, double ny, double *t_out, double *ratio)
+{
+    const int r = a->p.refine_range, m = 2 * (r + 6) + 1, c = r + 6;
+    double *gr = a->grey, *dv = a->diff;
+    const double tx = -ny * SIDE, ty = nx * SIDE;
+    for (int j = 0; j < m; j++) {
+        double t = j - c, px = x + t * nx, py = y + t * ny;
+        gr[j] = (mb_pyramid_sample(img, px, py) +
+                 mb_pyramid_sample(img, px - tx, py - ty) +
+                 mb_pyramid_sample(img, px + tx, py + ty)) * (1.0 / 3.0);
+    }
+    /* central differences of the taught polarity, grey per px */
+    for (int j = 1; j + 1 < m; j++)
+        dv[j] = a->polarity * 0.5 * (gr[j + 1] - gr[j - 1]);
+    const double thr = a->p.edge_fraction * a->contrast;
+    int best = -1;
+    for (int j = c - r; j <= c + r; j++) {
+        if (!(dv[j] >= thr) || dv[j] < dv[j - 1] || dv[j] < dv[j + 1])
+            continue;
+        if (best < 0 || abs(j - c) < abs(best - c) ||
+            (abs(j - c) == abs(best - c) && dv[j] > dv[best]))
+            best = j;
+    }
+    if (best < 0)
+        return 0;
+    /* plateaus 3..5 px either side (within the samples: best is at least
+       6 samples from either end) */
+    double lo = (gr[best - 3] + gr[best - 4] + gr[best - 5]) * (1.0 / 3.0);
+    double hi = (gr[best + 3] + gr[best + 4] + gr[best + 5]) * (1.0 / 3.0);
+    double mid = 0.5 * (lo + hi);
+    if (!(a->polarity * (hi - lo) > 0.0))
+        return 0;
+    /* the mid-level crossing nearest to the peak: between best-1 and best+1 */
+    int found = -1;
+    for (int off = 0; off <= 2 && found < 0; off++) {
+        int cand[2] = {best - 1 + off, best - 1 - off};
+        for (int q = 0; q < 2 && found < 0; q++) {
+            int j = cand[q];
+            if (j < 0 || j + 1 >= m)
+                continue;
+            if ((gr[j] - mid) * (gr[j + 1] - mid) <= 0.0 && gr[j] != gr[j + 1])
+                found = j;
+        }
+    }
+    if (found < 0)
+        return 0;
+    double f = (mid - gr[found]) / (gr[found + 1] - gr[found]);
+    *t_out = (found - c) + f;
+    *ratio = dv[best] / fabs(hi - lo);
+    return 1;
+}
+
+/* Blur sigma (px) of a Gaussian-blurred step whose central difference
+   peaks at `ratio` times its contrast: ratio = erf(1 / (sigma sqrt 2)) / 2,
+   solved by bisection (monotone in sigma). */
+static double blur_of_ratio(double ratio)
+{
+    double lo = 0.2, hi = 10.0;
+    if (!(ratio < 0.5 * erf(1.0 / (lo * M_SQRT2))))
+        return lo;
+    if (!(ratio > 0.5 * erf(1.0 / (hi * M_SQRT2))))
+        return hi;
+    for (int it = 0; it < 40; it++) {
+        double s = 0.5 * (lo + hi);
+        if (0.5 * erf(1.0 / (s * M_SQRT2)) > ratio)
+            lo = s;
+        else
+            hi = s;
+    }
+    return 0.5 * (lo + hi);
+}
+
+/*
+ * Measure every landmark along the normals of the current model outline.
+ * Two small systematic shifts of a curved edge are taken out, with the
+ * signed curvature kappa of the model outline (> 0 where the centre of
+ * curvature is on the part side): averaging the side lines SIDE px away
+ * moves the edge found by -kappa SIDE^2 / 3, and blurring a curved edge
+ * moves its mid-level contour towards the centre of curvature by
+ * kappa sigma^2 / 2 (sigma: the frame's edge blur, the median over the
+ * landmarks of the value that explains their edge strength).
+ */
+static int measure(mb_asm *a, const mb_image *img0)
+{
+    const mb_layout *lay = mb_shape_model_layout(a->sm);
+    int nv = 0;
+    for (int o = 0, first = 0; o < lay->n_outlines; o++) {
+        const int cnt = lay->counts[o];
+        for (int q = 0; q < cnt; q++) {
+            const int i = first + q;
+            const int ip = first + (q == 0 ? cnt - 1 : q - 1);
+            const int in = first + (q + 1 == cnt ? 0 : q + 1);
+            double x = a->pts[2 * i], y = a->pts[2 * i + 1];
+            double nx = a->nrm[2 * i], ny = a->nrm[2 * i + 1];
+            a->valid[i] = 0;
+            a->dist[i] = 0.0;
+            a->kappa[i] = 0.0;
+            if (nx == 0.0 && ny == 0.0)
+                continue;
+            /* curvature of the circle through the landmark and its
+               neighbours; its centre lies on the side of the chord's
+               midpoint */
+            double ax = x - a->pts[2 * ip], ay = y - a->pts[2 * ip + 1];
+            double bx = a->pts[2 * in] - x, by = a->pts[2 * in + 1] - y;
+            double cx = a->pts[2 * in] - a->pts[2 * ip], cy = a->pts[2 * in + 1] - a->pts[2 * ip + 1];
+            double den = hypot(ax, ay) * hypot(bx, by) * hypot(cx, cy);
+            if (den > 0.0) {
+                double k = 2.0 * fabs(ax * by - ay * bx) / den;
+                double mx = 0.5 * (a->pts[2 * ip] + a->pts[2 * in]) - x;
+                double my = 0.5 * (a->pts[2 * ip + 1] + a->pts[2 * in + 1]) - y;
+                k = k > 1.0 / 3.0 ? 1.0 / 3.0 : k;
+                a->kappa[i] = mx * nx + my * ny < 0.0 ? k : -k;
+            }
+            double t, ratio;
+            if (edge_along(a, img0, x, y, nx, ny, &t, &ratio)) {
+                a->valid[i] = 1;
+                a->dist[i] = t;
+                a->absd[nv++] = ratio;
+            }
+        }
+        first += cnt;
+    }
+    const double sigma = nv > 0 ? blur_of_ratio(select_kth(a->absd, nv, nv / 2)) : 0.0;
+    const double shift = SIDE * SIDE / 3.0 + 0.5 * sigma * sigma;
+    a->blur = sigma;
+    for (int i = 0; i < a->n; i++) {
+        double t = a->valid[i] ? a->dist[i] + a->kappa[i] * shift : 0.0;
+        a->meas[2 * i] = a->pts[2 * i] + t * a->nrm[2 * i];
+        a->meas[2 * i + 1] = a->pts[2 * i + 1] + t * a->nrm[2 * i + 1];
+    }
+    return nv;
+}
+
+/* Solve the SPD system A x = g (dim x dim, column-major, overwritten by
+   its Cholesky factor) in place of g. Returns 0 or MB_ENUMERIC. */
+static int solve_spd(double *A, double *g, int dim)
+{
+    for (int j = 0; j < dim; j++) {
+        double d = A[j + (size_t)j * dim];
+        for (int q = 0; q < j; q++)
+            d -= A[j + (size_t)q * dim] * A[j + (size_t)q * dim];
+        if (!(d > 0.0) || !isfinite(d))
+            return MB_ENUMERIC;
+        d = sqrt(d);
+        A[j + (size_t)j * dim] = d;
+        for (int i = j + 1; i < dim; i++) {
+            double v = A[i + (size_t)j * dim];
+            for (int q = 0; q < j; q++)
+                v -= A[i + (size_t)q * dim] * A[j + (size_t)q * dim];
+            A[i + (size_t)j * dim] = v / d;
+        }
+    }
+    for (int i = 0; i < dim; i++) { /* L y = g */
+        double v = g[i];
+        for (int q = 0; q < i; q++)
+            v -= A[i + (size_t)q * dim] * g[q];
+        g[i] = v / A[i + (size_t)i * dim];
+    }
+    for (int i = dim - 1; i >= 0; i--) { /* L^T x = y */
+        double v = g[i];
+        for (int q = i + 1; q < dim; q++)
+            v -= A[q + (size_t)i * dim] * g[q];
+        g[i] = v / A[i + (size_t)i * dim];
+    }
+    return MB_OK;
+}
+
+/*
+ * Fit pose + b to the measured points with use[i] set (the others do not
+ * count). A measured point says where the outline crosses the model's
+ * normal, not which landmark lies there, so the residual of landmark i is
+ * its distance to the tangent line through the measured point,
+ *     r_i = n_i . (m_i - p_i),
+ * and the landmarks may slide along the outline (the point-to-plane
+ * distance of Chen & Medioni, Image and Vision Computing 10(3), 1992).
+ * Gauss-Newton over u = (tx, ty, angle, log scale, c) with c = b / sd:
+ *     dp/dtx = (1, 0), dp/dty = (0, 1), dp/dangle = J (p - t),
+ *     dp/dlog s = p - t, dp/dc_j = s R(angle) P_j,i sd_j,
+ * J the quarter turn; minimising sum r_i^2 + FIT_PRIOR |c|^2, the prior
+ * (px^2 per sd^2) so weak that it only settles what the outline cannot
+ * (a ring's rotation, a mode that only slides landmarks along the outline),
+ * and a tiny damping for the same reason. b is bounded by b_limit sd after
+ * each step. Leaves the outline placed; *clamped: modes on the bound.
+ */
+static int fit_measured(mb_asm *a, mb_pose *pose, int *clamped)
+{
+    const int k = a->k, dim = 4 + k, d = a->dim;
+    const double *modes = mb_shape_model_modes(a->sm);
+    const double *eig = mb_shape_model_eig(a->sm);
+    double *A = a->gn_a, *g = a->gn_g, *row = a->gn_row;
+    for (int it = 0; it < FIT_STEPS; it++) {
+        const double c = cos(pose->angle) * pose->scale, sn = sin(pose->angle) * pose->scale;
+        memset(A, 0, (size_t)dim * dim * sizeof *A);
+        memset(g, 0, (size_t)dim * sizeof *g);
+        for (int i = 0; i < a->n; i++) {
+            if (!a->use[i])
+                continue;
+            const double nx = a->nrm[2 * i], ny = a->nrm[2 * i + 1];
+            const double px = a->pts[2 * i] - pose->tx, py = a->pts[2 * i + 1] - pose->ty;
+            const double r = nx * (a->meas[2 * i] - a->pts[2 * i]) +
+                             ny * (a->meas[2 * i + 1] - a->pts[2 * i + 1]);
+            row[0] = nx;
+            row[1] = ny;
+            row[2] = -nx * py + ny * px;
+            row[3] = nx * px + ny * py;
+            for (int j = 0; j < k; j++) {
+                const double *u = modes + (size_t)j * d + 2 * i;
+                double sd = sqrt(eig[j]);
+                row[4 + j] = sd * (nx * (c * u[0] - sn * u[1]) + ny * (sn * u[0] + c * u[1]));
+            }
+            for (int q = 0; q < dim; q++) {
+                g[q] += row[q] * r;
+                for (int p = q; p < dim; p++)
+                    A[p + (size_t)q * dim] += row[p] * row[q];
+            }
+        }
+        double tr = 0.0;
+        for (int q = 0; q < dim; q++)
+            tr += A[q + (size_t)q * dim];
+        for (int q = 0; q < dim; q++) {
+            A[q + (size_t)q * dim] += 1e-12 * tr + 1e-300;
+            for (int p = 0; p < q; p++) /* mirror the lower triangle */
+                A[p + (size_t)q * dim] = A[q + (size_t)p * dim];
+        }
+        for (int j = 0; j < k; j++) {
+            double cj = a->b[j] / sqrt(eig[j]);
+            A[(4 + j) + (size_t)(4 + j) * dim] += FIT_PRIOR;
+            g[4 + j] -= FIT_PRIOR * cj;
+        }
+        int rc = solve_spd(A, g, dim);
+        if (rc != MB_OK)
+            return rc;
+        pose->tx += g[0];
+        pose->ty += g[1];
+        pose->angle += g[2];
+        pose->scale *= exp(g[3]);
+        double step = fabs(g[0]) + fabs(g[1]) +
+                      (fabs(g[2]) + fabs(g[3])) * pose->scale * a->radius;
+        for (int j = 0; j < k; j++) {
+            double sd = sqrt(eig[j]);
+            a->b[j] += g[4 + j] * sd;
+            step += fabs(g[4 + j]) * 1e-3;
+        }
+        *clamped = 0;
+        if (a->p.b_limit > 0.0)
+            for (int j = 0; j < k; j++) {
+                double lim = a->p.b_limit * sqrt(eig[j]);
+                if (a->b[j] >= lim || a->b[j] <= -lim) {
+                    a->b[j] = a->b[j] > 0.0 ? lim : -lim;
+                    (*clamped)++;
+                }
+            }
+        if (!isfinite(pose->tx) || !isfinite(pose->ty) || !isfinite(pose->angle) ||
+            !(pose->scale > 0.0) || !isfinite(pose->scale))
+            return MB_ENUMERIC;
+        place(a, pose);
+        if (step < 1e-4)
+            break;
+    }
+    return MB_OK;
+}
+
+/* dist = (measured - model) . normal for valid points. */
+static void distances(mb_asm *a)
+{
+    for (int i = 0; i < a->n; i++)
+        a->dist[i] = a->valid[i]
+                         ? (a->meas[2 * i] - a->pts[2 * i]) * a->nrm[2 * i] +
+                               (a->meas[2 * i + 1] - a->pts[2 * i + 1]) * a->nrm[2 * i + 1]
+                         : 0.0;
+}
+
+static void fill_result(mb_asm *a, const mb_pose *pose, mb_asm_result *res)
+{
+    const double *eig = mb_shape_model_eig(a->sm);
+    for (int i = 0; i < a->k; i++)
+        a->b_sd[i] = a->b[i] / sqrt(eig[i]);
+    res->pose = *pose;
+    res->n_modes = a->k;
+    res->b = a->b;
+    res->b_sd = a->b_sd;
+    res->n_points = a->n;
+    res->model_xy = a->pts;
+    res->normal_xy = a->nrm;
+    res->measured_xy = a->meas;
+    res->dist = a->dist;
+    res->valid = a->valid;
+    res->edge_blur = a->blur;
+    res->coarsest = a->coarsest;
+    res->finest = a->finest;
+}
+
+int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
+                  int n_starts, mb_asm_result *res)
+{
+    if (!a || !pyr || !starts || n_starts < 1 || !res)
+        return MB_EINVAL;
+    for (int s = 0; s < n_starts; s++)
+        if (!(starts[s].scale > 0.0) || !isfinite(starts[s].scale) ||
+            !isfinite(starts[s].tx) || !isfinite(starts[s].ty) ||
+            !isfinite(starts[s].angle))
+            return MB_EINVAL;
+    if (mb_pyramid_levels(pyr) <= a->coarsest)
+        return MB_ESIZE;
+    const mb_image *img0 = mb_pyramid_level(pyr, 0);
+    if (img0->width != a->width || img0->height != a->height)
+        return MB_ESIZE;
+    memset(res, 0, sizeof *res);
+    res->n_starts = n_starts;
+
+    /* Coarsest level from every start, a few iterations each; keep the
+       best, let it finish the level, then descend. */
+    const size_t kb = (size_t)a->k * sizeof *a->b;
+    mb_pose best_pose = starts[0], pose;
+    double best_cost = INFINITY, cost = 0.0;
+    int best_start = -1, best_conv = 0, best_iters = 0;
+    for (int s = 0; s < n_starts; s++) {
+        int iters = 0;
+        pose = starts[s];
+        memset(a->b, 0, kb);
+        int conv = search_level(a, pyr, a->coarsest, a->p.start_iter, &pose,
+                                starts[s].scale, &iters, &cost);
+        if (conv < 0)
+            continue;
+        if (cost < best_cost) {
+            best_cost = cost;
+            best_pose = pose;
+            best_start = s;
+            best_conv = conv;
+            best_iters = iters;
+            memcpy(a->b_best, a->b, kb);
+        }
+    }
+    int converged = 0, broke = best_start < 0;
+    if (!broke) {
+        memcpy(a->b, a->b_best, kb);
+        pose = best_pose;
+        res->start = best_start;
+        const double scale0 = starts[best_start].scale;
+        int conv = best_conv;
+        cost = best_cost;
+        if (!conv && best_iters < a->p.max_iter)
+            conv = search_level(a, pyr, a->coarsest, a->p.max_iter - best_iters,
+                                &pose, scale0, &best_iters, &cost);
+        res->iterations[a->coarsest] = best_iters;
+        broke = conv < 0;
+        res->level_converged[a->coarsest] = conv > 0;
+        converged = conv > 0;
+        res->profile_cost = cost;
+        for (int level = a->coarsest - 1; level >= a->finest && !broke; level--) {
+            int iters = 0;
+            conv = search_level(a, pyr, level, a->p.max_iter, &pose, scale0,
+                                &iters, &cost);
+            res->iterations[level] = iters;
+            if (conv < 0) {
+                broke = 1;
+                break;
+            }
+            res->level_converged[level] = conv;
+            res->profile_cost = cost;
+            converged = conv;
+        }
+    }
+    if (broke) {
+        memset(a->b, 0, kb);
+        pose = starts[best_start < 0 ? 0 : best_start];
+    }
+
+    /* Measure at full resolution along the fitted outline, fit to the
+       measured points, leave out outliers, fit again. */
+    place(a, &pose);
+    res->n_valid = measure(a, img0);
+    res->converged = converged && !broke;
+    memcpy(a->use, a->valid, (size_t)a->n);
+    if (res->n_valid >= 3 && !broke) {
+        mb_pose keep = pose;
+        int clamped = 0;
+        int rc = fit_measured(a, &pose, &clamped);
+        if (rc == MB_OK) {
+            distances(a);
+            int nv = 0;
+            for (int i = 0; i < a->n; i++)
+                if (a->valid[i])
+                    a->absd[nv++] = fabs(a->dist[i]);
+            double sigma = 1.4826 * select_kth(a->absd, nv, nv / 2);
+            double cut = 3.0 * sigma > a->p.outlier_px ? 3.0 * sigma : a->p.outlier_px;
+            int out = 0;
+            for (int i = 0; i < a->n; i++) {
+                a->use[i] = a->valid[i] && fabs(a->dist[i]) <= cut;
+                out += a->valid[i] && !a->use[i];
+            }
+            if (out > 0 && nv - out >= 3)
+                rc = fit_measured(a, &pose, &clamped);
+            res->n_outliers = out;
+            res->clamped = clamped;
+        }
+        if (rc != MB_OK) {
+            /* keep the search's outline; the result is not converged */
+            pose = keep;
+            res->converged = 0;
+            place(a, &pose);
+        }
+    }
+    distances(a);
+    double ss = 0.0;
+    int nu = 0;
+    for (int i = 0; i < a->n; i++)
+        if (a->valid[i] && a->use[i]) {
+            ss += a->dist[i] * a->dist[i];
+            nu++;
+        }
+    res->fit_rms = nu > 0 ? sqrt(ss / nu) : 0.0;
+    fill_result(a, &pose, res);
+    return MB_OK;
+}

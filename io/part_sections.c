@@ -1,0 +1,318 @@
+/*
+ * io/part_sections.c - reading and writing the part-model sections of the
+ * model file (see part_sections.h). Numbers go through mb_json_raw_number
+ * so a round trip is bit-exact.
+ */
+#include "part_sections.h"
+
+#include "error.h"
+#include "json_util.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+static void put(cJSON *o, const char *key, double v, int *ok)
+{
+    cJSON *item = isfinite(v) ? mb_json_raw_number(v) : NULL;
+    if (!item || !cJSON_AddItemToObject(o, key, item)) {
+        cJSON_Delete(item);
+        *ok = 0;
+    }
+}
+
+static void put_array(cJSON *o, const char *key, const double *v, size_t n,
+                      int *ok)
+{
+    cJSON *a = cJSON_CreateArray();
+    if (!a) {
+        *ok = 0;
+        return;
+    }
+    for (size_t i = 0; i < n && *ok; i++) {
+        cJSON *item = isfinite(v[i]) ? mb_json_raw_number(v[i]) : NULL;
+        if (!item || !cJSON_AddItemToArray(a, item)) {
+            cJSON_Delete(item);
+            *ok = 0;
+        }
+    }
+    if (!*ok || !cJSON_AddItemToObject(o, key, a)) {
+        cJSON_Delete(a);
+        *ok = 0;
+    }
+}
+
+static cJSON *section(cJSON *payload, const char *key, int *ok)
+{
+    cJSON *o = cJSON_CreateObject();
+    if (!o || !cJSON_AddItemToObject(payload, key, o)) {
+        cJSON_Delete(o);
+        *ok = 0;
+        return NULL;
+    }
+    return o;
+}
+
+static void add_limits(cJSON *payload, const mb_limits *l, int *ok)
+{
+    cJSON *o = section(payload, "limits", ok);
+    if (!o)
+        return;
+    put(o, "alpha", l->alpha, ok);
+    put(o, "n_train", l->n_train, ok);
+    put(o, "n_modes", l->n_modes, ok);
+    put(o, "n_judged", l->n_judged, ok);
+    put_array(o, "mode_band", l->mode_band, (size_t)l->n_judged, ok);
+    put(o, "t2_limit", l->t2_limit, ok);
+    put(o, "t2_phase2", l->t2_phase2, ok);
+    put(o, "t2_inflation", l->t2_inflation, ok);
+    put(o, "spe_limit", l->spe_limit, ok);
+    put(o, "spe_jm", l->spe_jm, ok);
+    put(o, "size_mean", l->size_mean, ok);
+    put(o, "size_lo", l->size_lo, ok);
+    put(o, "size_hi", l->size_hi, ok);
+    put_array(o, "local_sigma", l->local_sigma, (size_t)l->n_landmarks, ok);
+    put_array(o, "local_limit", l->local_limit, (size_t)l->n_landmarks, ok);
+    put(o, "loo_rejects", l->loo_rejects, ok);
+    put(o, "frr_loo", l->frr_loo, ok);
+    put(o, "frr_upper", l->frr_upper, ok);
+}
+
+static void add_profiles(cJSON *payload, const mb_profile_model *pm, int *ok)
+{
+    const mb_profile_params *pp = mb_profile_model_params(pm);
+    const mb_profile_stats *st = mb_profile_model_stats(pm);
+    const mb_layout *l = mb_profile_model_layout(pm);
+    int n = l->n_points, p = mb_profile_model_len(pm), lv = pp->levels;
+    size_t tri = (size_t)p * (p + 1) / 2;
+    double *means = malloc((size_t)lv * n * p * sizeof *means);
+    double *cov = malloc((size_t)lv * n * tri * sizeof *cov);
+    cJSON *o = section(payload, "profiles", ok);
+    if (!means || !cov || !o) {
+        *ok = 0;
+        goto done;
+    }
+    for (int L = 0; L < lv; L++)
+        for (int i = 0; i < n; i++) {
+            memcpy(means + ((size_t)L * n + i) * p, mb_profile_model_mean(pm, L, i),
+                   (size_t)p * sizeof *means);
+            const double *c = mb_profile_model_cov(pm, L, i);
+            double *dst = cov + ((size_t)L * n + i) * tri;
+            size_t t = 0;
+            for (int col = 0; col < p; col++)
+                for (int row = 0; row <= col; row++)
+                    dst[t++] = c[row + (size_t)col * p];
+        }
+    put(o, "levels", lv, ok);
+    put(o, "half_len", pp->half_len, ok);
+    put(o, "shrink", pp->shrink, ok);
+    put(o, "floor", pp->floor, ok);
+    put(o, "samples", st->n_samples, ok);
+    put(o, "part_grey", st->part_grey, ok);
+    put(o, "back_grey", st->back_grey, ok);
+    put(o, "area", st->area, ok);
+    put(o, "size", st->size, ok);
+    put_array(o, "means", means, (size_t)lv * n * p, ok);
+    put_array(o, "cov_upper", cov, (size_t)lv * n * tri, ok);
+done:
+    free(means);
+    free(cov);
+}
+
+int mb_part_sections_add(cJSON *payload, const mb_part_model *pm)
+{
+    int ok = 1;
+    if (!payload || !pm)
+        return MB_EINVAL;
+    cJSON *part = section(payload, "part", &ok);
+    if (part && !cJSON_AddStringToObject(part, "name", pm->name))
+        ok = 0;
+    cJSON *im = section(payload, "imaging", &ok);
+    if (im) {
+        put(im, "width", pm->imaging.width, &ok);
+        put(im, "height", pm->imaging.height, &ok);
+        put(im, "mm_per_px", pm->imaging.mm_per_px, &ok);
+        put(im, "dark_part", pm->imaging.dark_part, &ok);
+    }
+    if (pm->has_limits)
+        add_limits(payload, &pm->limits, &ok);
+    if (pm->profiles)
+        add_profiles(payload, pm->profiles, &ok);
+    return ok ? MB_OK : MB_ENOMEM;
+}
+
+/* ---- reading ---------------------------------------------------------- */
+
+static int get_num(const cJSON *o, const char *name, const char *parent,
+                   const char *key, double *v, char *err)
+{
+    return mb_json_member_number(o, name, parent, key, v, err);
+}
+
+static int get_int(const cJSON *o, const char *name, const char *parent,
+                   const char *key, int lo, int hi, int *v, char *err)
+{
+    return mb_json_member_int(o, name, parent, key, lo, hi, v, err);
+}
+
+static int get_array(const cJSON *o, const char *name, const char *parent,
+                     const char *key, int n, double *out, char *err)
+{
+    const cJSON *a;
+    char field[MB_JSON_FIELD_LEN];
+    int rc = mb_json_member(o, name, parent, key, MB_JSON_ARRAY, &a, err);
+    if (rc < 0)
+        return rc;
+    mb_json_field(field, parent, key);
+    return mb_json_numbers(a, name, field, n, out, err);
+}
+
+static int read_imaging(const cJSON *payload, const char *name,
+                        mb_part_model *pm, char *err)
+{
+    const cJSON *o = cJSON_GetObjectItemCaseSensitive(payload, "imaging");
+    const char *par = "payload.imaging";
+    if (!o)
+        return MB_OK;
+    if (!cJSON_IsObject(o))
+        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+    int rc;
+    if ((rc = get_int(o, name, par, "width", 0, 65536, &pm->imaging.width, err)) < 0 ||
+        (rc = get_int(o, name, par, "height", 0, 65536, &pm->imaging.height, err)) < 0 ||
+        (rc = get_num(o, name, par, "mm_per_px", &pm->imaging.mm_per_px, err)) < 0 ||
+        (rc = get_int(o, name, par, "dark_part", 0, 1, &pm->imaging.dark_part, err)) < 0)
+        return rc;
+    if (pm->imaging.mm_per_px < 0)
+        return mb_err_set(err, MB_EFORMAT, "%s: %s.mm_per_px: expected 0 (unknown) "
+                          "or a positive scale", name, par);
+    return MB_OK;
+}
+
+static int read_limits(const cJSON *payload, const char *name,
+                       mb_part_model *pm, char *err)
+{
+    const cJSON *o = cJSON_GetObjectItemCaseSensitive(payload, "limits");
+    const char *par = "payload.limits";
+    if (!o)
+        return MB_OK;
+    if (!cJSON_IsObject(o))
+        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+    mb_limits *l = &pm->limits;
+    int n = mb_shape_model_layout(pm->shape)->n_points;
+    int k = mb_shape_model_n_modes(pm->shape), rc;
+    if ((rc = mb_limits_alloc(l, n)) < 0)
+        return mb_err_set(err, rc, "%s: out of memory", name);
+    pm->has_limits = 1;
+    if ((rc = get_num(o, name, par, "alpha", &l->alpha, err)) < 0 ||
+        (rc = get_int(o, name, par, "n_train", 2, 1000000, &l->n_train, err)) < 0 ||
+        (rc = get_int(o, name, par, "n_modes", k, k, &l->n_modes, err)) < 0 ||
+        (rc = get_int(o, name, par, "n_judged", 0,
+                      k < MB_MAX_JUDGED_MODES ? k : MB_MAX_JUDGED_MODES,
+                      &l->n_judged, err)) < 0 ||
+        (rc = get_array(o, name, par, "mode_band", l->n_judged, l->mode_band, err)) < 0 ||
+        (rc = get_num(o, name, par, "t2_limit", &l->t2_limit, err)) < 0 ||
+        (rc = get_num(o, name, par, "t2_phase2", &l->t2_phase2, err)) < 0 ||
+        (rc = get_num(o, name, par, "t2_inflation", &l->t2_inflation, err)) < 0 ||
+        (rc = get_num(o, name, par, "spe_limit", &l->spe_limit, err)) < 0 ||
+        (rc = get_num(o, name, par, "spe_jm", &l->spe_jm, err)) < 0 ||
+        (rc = get_num(o, name, par, "size_mean", &l->size_mean, err)) < 0 ||
+        (rc = get_num(o, name, par, "size_lo", &l->size_lo, err)) < 0 ||
+        (rc = get_num(o, name, par, "size_hi", &l->size_hi, err)) < 0 ||
+        (rc = get_array(o, name, par, "local_sigma", n, l->local_sigma, err)) < 0 ||
+        (rc = get_array(o, name, par, "local_limit", n, l->local_limit, err)) < 0 ||
+        (rc = get_int(o, name, par, "loo_rejects", 0, 1000000, &l->loo_rejects, err)) < 0 ||
+        (rc = get_num(o, name, par, "frr_loo", &l->frr_loo, err)) < 0 ||
+        (rc = get_num(o, name, par, "frr_upper", &l->frr_upper, err)) < 0)
+        return rc;
+    if (!(l->alpha > 0 && l->alpha < 1) || !(l->t2_limit > 0) ||
+        !(l->spe_limit > 0) || !(l->size_lo < l->size_hi))
+        return mb_err_set(err, MB_EFORMAT,
+                          "%s: %s: limits out of range (alpha in (0,1), positive "
+                          "T^2 and residual limits, size_lo < size_hi expected)",
+                          name, par);
+    for (int j = 0; j < n; j++)
+        if (!(l->local_limit[j] > 0))
+            return mb_err_set(err, MB_EFORMAT, "%s: %s.local_limit[%d]: expected "
+                              "a positive number", name, par, j);
+    return MB_OK;
+}
+
+static int read_profiles(const cJSON *payload, const char *name,
+                         mb_part_model *pm, char *err)
+{
+    const cJSON *o = cJSON_GetObjectItemCaseSensitive(payload, "profiles");
+    const char *par = "payload.profiles";
+    if (!o)
+        return MB_OK;
+    if (!cJSON_IsObject(o))
+        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+    const mb_layout *layout = mb_shape_model_layout(pm->shape);
+    mb_profile_params pp;
+    mb_profile_stats st;
+    int rc;
+    mb_profile_params_default(&pp);
+    memset(&st, 0, sizeof st);
+    if ((rc = get_int(o, name, par, "levels", 1, MB_PYRAMID_MAX_LEVELS, &pp.levels, err)) < 0 ||
+        (rc = get_int(o, name, par, "half_len", 1, MB_PROFILE_MAX_HALF, &pp.half_len, err)) < 0 ||
+        (rc = get_num(o, name, par, "shrink", &pp.shrink, err)) < 0 ||
+        (rc = get_num(o, name, par, "floor", &pp.floor, err)) < 0 ||
+        (rc = get_int(o, name, par, "samples", 2, 1000000, &st.n_samples, err)) < 0 ||
+        (rc = get_num(o, name, par, "part_grey", &st.part_grey, err)) < 0 ||
+        (rc = get_num(o, name, par, "back_grey", &st.back_grey, err)) < 0 ||
+        (rc = get_num(o, name, par, "area", &st.area, err)) < 0 ||
+        (rc = get_num(o, name, par, "size", &st.size, err)) < 0)
+        return rc;
+    int n = layout->n_points, p = 2 * pp.half_len + 1;
+    size_t tri = (size_t)p * (p + 1) / 2, nm = (size_t)pp.levels * n;
+    double *means = malloc(nm * p * sizeof *means);
+    double *upper = malloc(nm * tri * sizeof *upper);
+    double *cov = malloc(nm * p * p * sizeof *cov);
+    if (!means || !upper || !cov) {
+        rc = mb_err_set(err, MB_ENOMEM, "%s: out of memory", name);
+        goto done;
+    }
+    if ((rc = get_array(o, name, par, "means", (int)(nm * p), means, err)) < 0 ||
+        (rc = get_array(o, name, par, "cov_upper", (int)(nm * tri), upper, err)) < 0)
+        goto done;
+    for (size_t q = 0; q < nm; q++) {
+        const double *src = upper + q * tri;
+        double *c = cov + q * p * p;
+        size_t t = 0;
+        for (int col = 0; col < p; col++)
+            for (int row = 0; row <= col; row++) {
+                c[row + (size_t)col * p] = src[t];
+                c[col + (size_t)row * p] = src[t];
+                t++;
+            }
+    }
+    char perr[MB_ERR_LEN] = "";
+    rc = mb_profile_model_create(layout, &pp, &st, means, cov, &pm->profiles, perr);
+    if (rc < 0)
+        mb_err_set(err, rc, "%s: %s: %s", name, par, perr);
+done:
+    free(means);
+    free(upper);
+    free(cov);
+    return rc;
+}
+
+int mb_part_sections_read(const cJSON *payload, const char *name,
+                          mb_part_model *pm, char *err)
+{
+    if (!payload || !pm || !pm->shape)
+        return MB_EINVAL;
+    const cJSON *part = cJSON_GetObjectItemCaseSensitive(payload, "part");
+    if (part) {
+        const cJSON *nm = cJSON_GetObjectItemCaseSensitive(part, "name");
+        if (!cJSON_IsObject(part) || !cJSON_IsString(nm))
+            return mb_err_set(err, MB_EFORMAT, "%s: payload.part.name: expected "
+                              "a string", name);
+        snprintf(pm->name, sizeof pm->name, "%s", nm->valuestring);
+    }
+    int rc;
+    if ((rc = read_imaging(payload, name, pm, err)) < 0 ||
+        (rc = read_limits(payload, name, pm, err)) < 0 ||
+        (rc = read_profiles(payload, name, pm, err)) < 0)
+        return rc;
+    return MB_OK;
+}
