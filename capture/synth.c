@@ -44,13 +44,13 @@ struct mb_synth {
     mb_synth_config cfg;
     const mb_synth_family_def *fam;
     uint64_t next_index;
-    double step;   /* outline point spacing, mm (about one pixel) */
-    int margin;    /* px kept free around a part in view */
+    double step; /* outline point spacing, mm (about one pixel) */
+    int margin;  /* px kept free around a part in view */
     double grey_part, grey_bg, grey_contam;
-    float *bg;     /* width x height: background level, no texture */
-    float *illum;  /* width x height: illumination factor */
-    float *tex;    /* TEX_SIZE^2 belt texture, grey levels (front-lit) */
-    float *noise;  /* NOISE_TABLE noise values, grey levels */
+    float *bg;    /* width x height: background level, no texture */
+    float *illum; /* width x height: illumination factor */
+    float *tex;   /* TEX_SIZE^2 belt texture, grey levels (front-lit) */
+    float *noise; /* NOISE_TABLE noise values, grey levels */
     mb_synth_polys part, contam;
     mb_synth_scratch sc;
     double *truth_xy, *contam_xy; /* px */
@@ -62,8 +62,8 @@ struct mb_synth {
 static const char *const family_names[MB_SYNTH_N_FAMILIES] = {
     "ring", "flange", "hose", "lipseal"};
 static const char *const defect_names[MB_SYNTH_N_DEFECTS] = {
-    "none",    "nick",          "flash", "tear", "missing", "deform",
-    "size",    "variant",       "contamination", "empty", "cut"};
+    "none", "nick",    "flash",         "tear",  "missing", "deform",
+    "size", "variant", "contamination", "empty", "cut"};
 static const char *const lighting_names[2] = {"back", "front"};
 
 const char *mb_synth_family_name(int family)
@@ -135,23 +135,29 @@ void mb_synth_config_default(mb_synth_config *cfg, mb_synth_family family)
 static int check_config(const mb_synth_config *c, char *err)
 {
     if (!mb_synth_family_get((int)c->family))
-        return mb_err_set(err, MB_EINVAL, "synthetic line: family %d is not one of 0..%d",
-                          (int)c->family, MB_SYNTH_N_FAMILIES - 1);
-    if (c->width < 16 || c->height < 16 || c->width > 16384 || c->height > 16384)
         return mb_err_set(err, MB_EINVAL,
-                          "synthetic line: frame size %dx%d is outside 16..16384 px",
-                          c->width, c->height);
+                          "synthetic line: family %d is not one of 0..%d",
+                          (int)c->family, MB_SYNTH_N_FAMILIES - 1);
+    if (c->width < 16 || c->height < 16 || c->width > 16384 ||
+        c->height > 16384)
+        return mb_err_set(
+            err, MB_EINVAL,
+            "synthetic line: frame size %dx%d is outside 16..16384 px",
+            c->width, c->height);
     if (!(c->mm_per_px >= 0.005 && c->mm_per_px <= 10))
         return mb_err_set(err, MB_EINVAL,
                           "synthetic line: mm_per_px %g is outside 0.005..10",
                           c->mm_per_px);
     if (c->lighting != MB_SYNTH_BACKLIT && c->lighting != MB_SYNTH_FRONTLIT)
-        return mb_err_set(err, MB_EINVAL, "synthetic line: lighting %d is not back (0) or front (1)",
-                          (int)c->lighting);
+        return mb_err_set(
+            err, MB_EINVAL,
+            "synthetic line: lighting %d is not back (0) or front (1)",
+            (int)c->lighting);
     if (!(c->noise_sigma >= 0 && c->noise_sigma <= 50))
-        return mb_err_set(err, MB_EINVAL,
-                          "synthetic line: noise sigma %g is outside 0..50 grey levels",
-                          c->noise_sigma);
+        return mb_err_set(
+            err, MB_EINVAL,
+            "synthetic line: noise sigma %g is outside 0..50 grey levels",
+            c->noise_sigma);
     if (!(c->blur_sigma >= 0 && c->blur_sigma <= 10))
         return mb_err_set(err, MB_EINVAL,
                           "synthetic line: blur sigma %g is outside 0..10 px",
@@ -170,17 +176,20 @@ static int check_config(const mb_synth_config *c, char *err)
                           c->defect_rate);
     unsigned all = ((1u << MB_SYNTH_N_DEFECTS) - 1u) & ~(1u << MB_SYNTH_NONE);
     if (c->defect_mask & ~all)
-        return mb_err_set(err, MB_EINVAL,
-                          "synthetic line: defect mask 0x%x has bits outside 0x%x",
-                          c->defect_mask, all);
+        return mb_err_set(
+            err, MB_EINVAL,
+            "synthetic line: defect mask 0x%x has bits outside 0x%x",
+            c->defect_mask, all);
     if (c->defect_rate > 0 && !c->defect_mask)
         return mb_err_set(err, MB_EINVAL,
-                          "synthetic line: a defect rate above 0 needs at least one defect type");
+                          "synthetic line: a defect rate above 0 needs at "
+                          "least one defect type");
     if (c->defect_max_mm > 0 &&
         !(c->defect_min_mm > 0 && c->defect_min_mm <= c->defect_max_mm &&
           c->defect_max_mm <= 10))
         return mb_err_set(err, MB_EINVAL,
-                          "synthetic line: defect sizes %g..%g mm are not 0 < min <= max <= 10",
+                          "synthetic line: defect sizes %g..%g mm are not 0 < "
+                          "min <= max <= 10",
                           c->defect_min_mm, c->defect_max_mm);
     return 0;
 }
@@ -194,8 +203,9 @@ static int check_config(const mb_synth_config *c, char *err)
 static double inverse_normal(double p)
 {
     double q = p < 0.5 ? p : 1 - p, t = sqrt(-2.0 * log(q));
-    double x = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) /
-                       (1 + 1.432788 * t + 0.189269 * t * t + 0.001308 * t * t * t);
+    double x =
+        t - (2.515517 + 0.802853 * t + 0.010328 * t * t) /
+                (1 + 1.432788 * t + 0.189269 * t * t + 0.001308 * t * t * t);
     if (p < 0.5)
         x = -x;
     for (int i = 0; i < 4; i++) {
@@ -243,7 +253,8 @@ static void make_texture(float *tex, float *tmp, mb_synth_rng *r)
     float norm = (float)(4.0 / sqrt(ss / (TEX_SIZE * TEX_SIZE))); /* sd 4 */
     for (int y = 0; y < TEX_SIZE; y++)
         for (int x = 0; x < TEX_SIZE; x++) {
-            double weave = 1.5 * sin(2 * M_PI * x / 8.0) * sin(2 * M_PI * y / 8.0);
+            double weave =
+                1.5 * sin(2 * M_PI * x / 8.0) * sin(2 * M_PI * y / 8.0);
             tex[y * TEX_SIZE + x] = norm * tmp[y * TEX_SIZE + x] + (float)weave;
         }
 }
@@ -307,7 +318,8 @@ void mb_synth_close(mb_synth *g)
 int mb_synth_open(const mb_synth_config *cfg, mb_synth **out, char *err)
 {
     if (!cfg || !out)
-        return mb_err_set(err, MB_EINVAL, "synthetic line: no configuration given");
+        return mb_err_set(err, MB_EINVAL,
+                          "synthetic line: no configuration given");
     *out = NULL;
     int rc = check_config(cfg, err);
     if (rc < 0)
@@ -360,23 +372,26 @@ int mb_synth_open(const mb_synth_config *cfg, mb_synth **out, char *err)
     int nominal_points = probe.n;
     free(probe.xy);
     if (too_many) {
-        rc = mb_err_set(err, MB_ERANGE,
-                        "synthetic line: at %g mm per px a %s outline would need more "
-                        "than %d points; use a coarser scale",
-                        cfg->mm_per_px, g->fam->name, MB_MAX_OUTLINE_POINTS / 2);
+        rc = mb_err_set(
+            err, MB_ERANGE,
+            "synthetic line: at %g mm per px a %s outline would need more "
+            "than %d points; use a coarser scale",
+            cfg->mm_per_px, g->fam->name, MB_MAX_OUTLINE_POINTS / 2);
         goto fail;
     }
     /* Any rotation must fit: the nominal part's enclosing circle, 10 %
        larger for variation and defects, plus the margins. */
     double diam_px = 2.2 * rad / cfg->mm_per_px;
-    if (diam_px + 2 * g->margin > (cfg->width < cfg->height ? cfg->width : cfg->height)) {
-        rc = mb_err_set(err, MB_ERANGE,
-                        "synthetic line: a %s part (%.1f x %.1f mm) needs a frame of at "
-                        "least %.0f px in both directions at %g mm per px; the frame "
-                        "is %dx%d",
-                        g->fam->name, maxx - minx, maxy - miny,
-                        ceil(diam_px + 2 * g->margin), cfg->mm_per_px, cfg->width,
-                        cfg->height);
+    if (diam_px + 2 * g->margin >
+        (cfg->width < cfg->height ? cfg->width : cfg->height)) {
+        rc = mb_err_set(
+            err, MB_ERANGE,
+            "synthetic line: a %s part (%.1f x %.1f mm) needs a frame of at "
+            "least %.0f px in both directions at %g mm per px; the frame "
+            "is %dx%d",
+            g->fam->name, maxx - minx, maxy - miny,
+            ceil(diam_px + 2 * g->margin), cfg->mm_per_px, cfg->width,
+            cfg->height);
         goto fail;
     }
     int cap = 2 * nominal_points + 4096;
@@ -458,8 +473,8 @@ static void rotated_box(const mb_synth_polys *p, double c, double s,
 
 /* Choose the pose: any angle, the origin anywhere the whole geometry stays
    margin px inside the frame; for CUT, partly outside one side. */
-static int place(mb_synth *g, uint64_t index, int shot, int cut,
-                 mb_pose *pose, mb_synth_defect *d)
+static int place(mb_synth *g, uint64_t index, int shot, int cut, mb_pose *pose,
+                 mb_synth_defect *d)
 {
     const mb_synth_config *c = &g->cfg;
     mb_synth_rng r;
@@ -483,10 +498,22 @@ static int place(mb_synth *g, uint64_t index, int shot, int cut,
             double ty = ylo > yhi ? 0.5 * c->height : ylo + v * (yhi - ylo);
             double out_px;
             switch (side) {
-            case 0: tx = -box[0] - q * ex; out_px = q * ex; break;
-            case 1: tx = c->width - 1 - box[1] + q * ex; out_px = q * ex; break;
-            case 2: ty = -box[2] - q * ey; out_px = q * ey; break;
-            default: ty = c->height - 1 - box[3] + q * ey; out_px = q * ey; break;
+            case 0:
+                tx = -box[0] - q * ex;
+                out_px = q * ex;
+                break;
+            case 1:
+                tx = c->width - 1 - box[1] + q * ex;
+                out_px = q * ex;
+                break;
+            case 2:
+                ty = -box[2] - q * ey;
+                out_px = q * ey;
+                break;
+            default:
+                ty = c->height - 1 - box[3] + q * ey;
+                out_px = q * ey;
+                break;
             }
             pose->tx = tx;
             pose->ty = ty;
@@ -506,7 +533,8 @@ static int place(mb_synth *g, uint64_t index, int shot, int cut,
 
 static void to_pixels(const mb_pose *pose, const mb_synth_polys *p, double *out)
 {
-    double c = cos(pose->angle) * pose->scale, s = sin(pose->angle) * pose->scale;
+    double c = cos(pose->angle) * pose->scale,
+           s = sin(pose->angle) * pose->scale;
     for (int i = 0; i < p->n; i++) {
         double x = p->xy[2 * i], y = p->xy[2 * i + 1];
         out[2 * i] = c * x - s * y + pose->tx;
@@ -545,12 +573,15 @@ static void compose(mb_synth *g, mb_image *frame, uint64_t index, int shot,
     for (int y = 0; y < c->height; y++) {
         const float *bg = g->bg + (size_t)y * (size_t)c->width;
         const float *il = g->illum + (size_t)y * (size_t)c->width;
-        const float *tex = g->tex + (size_t)((y + oy) & (TEX_SIZE - 1)) * TEX_SIZE;
+        const float *tex =
+            g->tex + (size_t)((y + oy) & (TEX_SIZE - 1)) * TEX_SIZE;
         uint8_t *out = frame->pixels + (size_t)y * (size_t)frame->stride;
         int ya = cp && y >= cp->y0 && y < cp->y0 + cp->height;
         int yc = cc && y >= cc->y0 && y < cc->y0 + cc->height;
-        const float *ap = ya ? cp->cells + (size_t)(y - cp->y0) * (size_t)cp->stride : NULL;
-        const float *ac = yc ? cc->cells + (size_t)(y - cc->y0) * (size_t)cc->stride : NULL;
+        const float *ap =
+            ya ? cp->cells + (size_t)(y - cp->y0) * (size_t)cp->stride : NULL;
+        const float *ac =
+            yc ? cc->cells + (size_t)(y - cc->y0) * (size_t)cc->stride : NULL;
         for (int x = 0; x < c->width; x++) {
             float v = bg[x];
             if (front)
@@ -603,8 +634,10 @@ static void fill_truth_header(const mb_synth *g, uint64_t index, int shot,
     t->defect.arc = -1;
 }
 
-int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
-                  mb_image *frame, mb_synth_truth *truth)
+/* One frame; `at` (px, angle; its scale is ignored) replaces the drawn
+   placement when not NULL. */
+static int make_frame(mb_synth *g, uint64_t index, int shot, int defect,
+                      const mb_pose *at, mb_image *frame, mb_synth_truth *truth)
 {
     if (!g || !frame || !frame->pixels || shot < 0)
         return MB_EINVAL;
@@ -656,8 +689,17 @@ int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
     /* placement, pixels */
     mb_pose pose = {0, 0, 1.0 / c->mm_per_px, 0};
     mb_synth_defect cut_d = d;
-    if (place(g, index, shot, defect == MB_SYNTH_CUT, &pose, &cut_d) < 0)
+    if (at) {
+        if (defect == MB_SYNTH_CUT || !isfinite(at->tx) ||
+            !isfinite(at->ty) || !isfinite(at->angle))
+            return MB_EINVAL;
+        pose.tx = at->tx;
+        pose.ty = at->ty;
+        pose.angle = at->angle;
+    } else if (place(g, index, shot, defect == MB_SYNTH_CUT, &pose, &cut_d) <
+               0) {
         return MB_ERANGE;
+    }
     to_pixels(&pose, &g->part, g->truth_xy);
     to_pixels(&pose, &g->contam, g->contam_xy);
     if (defect == MB_SYNTH_CUT) {
@@ -670,7 +712,8 @@ int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
         d.x = px;
         d.y = py;
     }
-    d.angle = (defect == MB_SYNTH_NONE) ? 0 : atan2(d.y - pose.ty, d.x - pose.tx);
+    d.angle =
+        (defect == MB_SYNTH_NONE) ? 0 : atan2(d.y - pose.ty, d.x - pose.tx);
 
     /* render: a window around all geometry, blur margin included */
     double box[4] = {INFINITY, -INFINITY, INFINITY, -INFINITY};
@@ -702,7 +745,8 @@ int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
     int has_contam = has_win && g->contam.n_outlines > 0;
     if (has_contam)
         render_layer(g, &g->contam, g->contam_xy, win, g->cov2, &cc);
-    compose(g, frame, index, shot, has_win ? &cp : NULL, has_contam ? &cc : NULL);
+    compose(g, frame, index, shot, has_win ? &cp : NULL,
+            has_contam ? &cc : NULL);
 
     /* truth */
     t->present = 1;
@@ -716,6 +760,21 @@ int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
         t->outlines.counts[o] = mb_synth_polys_count(&g->part, o);
     t->outlines.xy = g->truth_xy;
     return 0;
+}
+
+int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
+                  mb_image *frame, mb_synth_truth *truth)
+{
+    return make_frame(g, index, shot, defect, NULL, frame, truth);
+}
+
+int mb_synth_make_at(mb_synth *g, uint64_t index, int shot, int defect,
+                     const mb_pose *pose, mb_image *frame,
+                     mb_synth_truth *truth)
+{
+    if (!pose)
+        return MB_EINVAL;
+    return make_frame(g, index, shot, defect, pose, frame, truth);
 }
 
 int mb_synth_next(mb_synth *g, mb_image *frame, mb_synth_truth *truth)

@@ -38,7 +38,9 @@
  * grey part on a darker textured belt (lower contrast).
  *
  * Pure computation: no files, no printing. Memory is allocated once in
- * mb_synth_open; making a frame allocates nothing.
+ * mb_synth_open; making a frame allocates nothing. A generator is used by
+ * one thread at a time (it owns its scratch buffers); separate generators
+ * are independent.
  */
 #ifndef MB_SYNTH_H
 #define MB_SYNTH_H
@@ -65,11 +67,14 @@ typedef enum {
 /**
  * Defect types and what their recorded size means (mm, on the part):
  *   NONE          good part; size 0.
- *   NICK          notch cut into an edge (V- or U-shaped); size = depth.
- *   FLASH         excess material standing out of an edge; size = height.
- *   TEAR          narrow slit torn into an edge; size = depth.
- *   MISSING       a missing segment: a wide flat-bottomed piece gone from an
- *                 edge; size = depth.
+ *   NICK          notch cut into an edge (V- or U-shaped, 1.2-3 times as
+ *                 wide as deep); size = depth, 0.2-2 mm.
+ *   FLASH         excess material standing out of an edge over 2-6 mm;
+ *                 size = height, 0.2-1.5 mm.
+ *   TEAR          narrow slit (0.2-0.5 mm wide) torn into an edge;
+ *                 size = depth, 0.6-3 mm.
+ *   MISSING       a missing segment: a wide (3-8 mm) flat-bottomed piece
+ *                 gone from an edge; size = depth, 1-2.5 mm.
  *   DEFORM        deformation beyond the good range (ring: ovality, flange:
  *                 bow, hose: bend, lipseal: lip angle); size = largest
  *                 distance of the outline from the same part at the edge of
@@ -83,14 +88,19 @@ typedef enum {
  *                 from the right variant, or the diameter of a missing hole.
  *   CONTAMINATION a blob or fibre of foreign matter touching the part (drawn
  *                 separately; not part of the truth outlines); size = its
- *                 largest extent (blob diameter, fibre length).
+ *                 largest extent (blob diameter 0.5-2.5 mm, fibre length
+ *                 1.5-6 mm, fibre 0.15-0.3 mm thick).
  *   EMPTY         no part in the frame; size 0.
  *   CUT           a good part cut by the frame edge (bad input for teaching
  *                 and inspection); size = how far it reaches out of the
  *                 frame. Not drawn unless its bit is set in defect_mask.
  * Local defects (NICK .. MISSING, CONTAMINATION) are located on an outline
  * (outline index, arc position, angle about the part origin, image x, y);
- * DEFORM and WRONG_VARIANT at their largest deviation.
+ * DEFORM and WRONG_VARIANT at their largest deviation. Sizes are drawn
+ * uniformly in the ranges above (or defect_min_mm..defect_max_mm); a local
+ * defect is placed only on a smooth stretch of edge, keeps 0.3 mm clear of
+ * every other edge, and is made shallower where no position takes its
+ * depth: the recorded size is always the one made.
  */
 typedef enum {
     MB_SYNTH_NONE = 0,
@@ -117,18 +127,18 @@ typedef enum {
 
 typedef struct {
     mb_synth_family family;
-    int width, height;  /**< frame size, px; default 1280 x 1024 */
-    double mm_per_px;   /**< scale on the part plane; default 0.1 */
+    int width, height;          /**< frame size, px; default 1280 x 1024 */
+    double mm_per_px;           /**< scale on the part plane; default 0.1 */
     mb_synth_lighting lighting; /**< default MB_SYNTH_BACKLIT */
-    double noise_sigma; /**< sensor noise, grey levels; default 2; 0 = none */
-    double blur_sigma;  /**< optical blur, px (0..10); default 1; 0 = none */
-    double illumination; /**< uneven illumination: how much darker the
-                              corners are than the centre, as a fraction
-                              (0..0.5); default 0.12; 0 = flat */
-    double variation;   /**< scale of the natural variation of good parts;
-                             default 1; 0 gives nominal parts */
-    double defect_rate; /**< probability that mb_synth_next makes a
-                             defective part (0..1); default 0 */
+    double noise_sigma;   /**< sensor noise, grey levels; default 2; 0 = none */
+    double blur_sigma;    /**< optical blur, px (0..10); default 1; 0 = none */
+    double illumination;  /**< uneven illumination: how much darker the
+                               corners are than the centre, as a fraction
+                               (0..0.5); default 0.12; 0 = flat */
+    double variation;     /**< scale of the natural variation of good parts;
+                               default 1; 0 gives nominal parts */
+    double defect_rate;   /**< probability that mb_synth_next makes a
+                               defective part (0..1); default 0 */
     unsigned defect_mask; /**< bit (1u << type) set for each defect type
                                mb_synth_next may draw (uniformly among the
                                set bits); default MB_SYNTH_MASK_DEFAULT */
@@ -136,7 +146,7 @@ typedef struct {
                                               local defects (NICK, FLASH,
                                               TEAR, MISSING, CONTAMINATION)
                                               instead of each type's own */
-    uint64_t seed;      /**< default 1 */
+    uint64_t seed;                       /**< default 1 */
 } mb_synth_config;
 
 typedef struct {
@@ -157,12 +167,12 @@ typedef struct {
     mb_synth_family family;
     const char *part_number; /**< static string, e.g. "RG-4030" */
     uint64_t seed;
-    uint64_t index;          /**< part index */
-    int shot;                /**< how many times this part was imaged before */
-    int width, height;       /**< px */
+    uint64_t index;    /**< part index */
+    int shot;          /**< how many times this part was imaged before */
+    int width, height; /**< px */
     double mm_per_px;
     mb_synth_lighting lighting;
-    double noise_sigma, blur_sigma; /**< as rendered */
+    double noise_sigma, blur_sigma;    /**< as rendered */
     double grey_part, grey_background; /**< nominal grey levels at the frame
                                             centre, before noise */
     /* the part */
@@ -212,6 +222,19 @@ void mb_synth_close(mb_synth *g);
 int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
                   mb_image *frame, mb_synth_truth *truth);
 
+/**
+ * The same part, defect and noise as mb_synth_make, but placed at `pose`
+ * (tx, ty: image px of the part origin; angle, radians; scale is ignored)
+ * instead of the drawn placement: for a part travelling through the field
+ * (capture/synth_source.h). The part may reach out of the frame or lie
+ * wholly outside it (truth in_view tells). Allocates nothing.
+ * Return value: as mb_synth_make; MB_EINVAL also for CUT (a pose is given)
+ * and a non-finite pose.
+ */
+int mb_synth_make_at(mb_synth *g, uint64_t index, int shot, int defect,
+                     const mb_pose *pose, mb_image *frame,
+                     mb_synth_truth *truth);
+
 /** The next part of the line: mb_synth_make(g, i++, 0, MB_SYNTH_DRAW, ...),
     starting at index 0. */
 int mb_synth_next(mb_synth *g, mb_image *frame, mb_synth_truth *truth);
@@ -220,9 +243,9 @@ int mb_synth_next(mb_synth *g, mb_image *frame, mb_synth_truth *truth);
 const mb_synth_config *mb_synth_get_config(const mb_synth *g);
 
 /* Names used on the command line and in label files. */
-const char *mb_synth_family_name(int family);   /**< "ring", ...; "?" */
-const char *mb_synth_part_number(int family);   /**< "RG-4030", ...; "?" */
-const char *mb_synth_defect_name(int type);     /**< "none", "nick", ...; "?" */
+const char *mb_synth_family_name(int family); /**< "ring", ...; "?" */
+const char *mb_synth_part_number(int family); /**< "RG-4030", ...; "?" */
+const char *mb_synth_defect_name(int type);   /**< "none", "nick", ...; "?" */
 const char *mb_synth_lighting_name(int lighting); /**< "back", "front"; "?" */
 /** The family / defect type / lighting of a name, or MB_EINVAL. */
 int mb_synth_family_from_name(const char *name);

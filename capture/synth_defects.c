@@ -99,8 +99,8 @@ static double dist_to_polyline(const double *b, int nb, double px, double py,
     }
     for (int jj = lo; jj <= hi; jj++) {
         int j = ((jj % nb) + nb) % nb, k = (j + 1) % nb;
-        double d = seg_dist2(px, py, b[2 * j], b[2 * j + 1], b[2 * k],
-                             b[2 * k + 1]);
+        double d =
+            seg_dist2(px, py, b[2 * j], b[2 * j + 1], b[2 * k], b[2 * k + 1]);
         if (d < best)
             best = d;
     }
@@ -120,10 +120,11 @@ double mb_synth_max_deviation(const mb_synth_polys *a, const mb_synth_polys *b,
         /* Brute force when small; else search a window around the point of
            b at the same fraction of the outline (both are sampled by arc
            length from corresponding starts). */
-        int w = (double)na * nb <= 4e6 ? nb : nb / 4;
+        int w = (double)na * nb <= 1e6 ? nb : nb / 4;
         for (int i = 0; i < na; i++) {
             int j0 = (int)((double)i * nb / na);
-            double d = dist_to_polyline(pb, nb, pa[2 * i], pa[2 * i + 1], j0, w);
+            double d =
+                dist_to_polyline(pb, nb, pa[2 * i], pa[2 * i + 1], j0, w);
             if (d > worst) {
                 worst = d;
                 where = a->first[o] + i;
@@ -177,7 +178,8 @@ static double clearance(const mb_synth_polys *p, const double *arc, int skip_o,
                     continue;
             }
             for (int i = 0; i < n; i++) {
-                double dx = pts[2 * i] - xy[2 * j], dy = pts[2 * i + 1] - xy[2 * j + 1];
+                double dx = pts[2 * i] - xy[2 * j],
+                       dy = pts[2 * i + 1] - xy[2 * j + 1];
                 double d2 = dx * dx + dy * dy;
                 if (d2 < best)
                     best = d2;
@@ -236,18 +238,14 @@ static double profile(int type, int shape, double t, double phase)
     if (a >= 1)
         return 0;
     switch (type) {
-    case MB_SYNTH_NICK:
-        return shape ? sqrt(1 - t * t) : 1 - a; /* U or V */
-    case MB_SYNTH_TEAR:
-        return 1 - a;
+    case MB_SYNTH_NICK: return shape ? sqrt(1 - t * t) : 1 - a; /* U or V */
+    case MB_SYNTH_TEAR: return 1 - a;
     case MB_SYNTH_FLASH: { /* ramps, ragged crest */
         double ramp = fmin(1.0, (1 - a) / 0.25);
         return ramp * (0.85 + 0.15 * (0.5 + 0.5 * sin(9.0 * t + phase)));
     }
-    case MB_SYNTH_MISSING:
-        return fmin(1.0, (1 - a) / 0.12);
-    default:
-        return 0;
+    case MB_SYNTH_MISSING: return fmin(1.0, (1 - a) / 0.12);
+    default: return 0;
     }
 }
 
@@ -255,11 +253,26 @@ static double profile(int type, int shape, double t, double phase)
 static void local_ranges(int type, double *lo, double *hi)
 {
     switch (type) {
-    case MB_SYNTH_NICK: *lo = 0.2; *hi = 2.0; break;
-    case MB_SYNTH_FLASH: *lo = 0.2; *hi = 1.5; break;
-    case MB_SYNTH_TEAR: *lo = 0.6; *hi = 3.0; break;
-    case MB_SYNTH_MISSING: *lo = 1.0; *hi = 2.5; break;
-    default: *lo = 0.5; *hi = 2.5; break; /* contamination */
+    case MB_SYNTH_NICK:
+        *lo = 0.2;
+        *hi = 2.0;
+        break;
+    case MB_SYNTH_FLASH:
+        *lo = 0.2;
+        *hi = 1.5;
+        break;
+    case MB_SYNTH_TEAR:
+        *lo = 0.6;
+        *hi = 3.0;
+        break;
+    case MB_SYNTH_MISSING:
+        *lo = 1.0;
+        *hi = 2.5;
+        break;
+    default:
+        *lo = 0.5;
+        *hi = 2.5;
+        break; /* contamination */
     }
 }
 
@@ -318,7 +331,12 @@ static int local_defect(int type, const mb_synth_defect_opts *opt,
     double *arc = sc->arc;
     /* the moved points go into the tail of sc->sorted as plain xy */
     double *fine = sc->sorted + 3 * (size_t)sc->cap - 2 * (size_t)nf;
-    for (int attempt = 0; attempt < 64; attempt++) {
+    /* 64 positions; when none takes the depth (a thin lip, a narrow band),
+       the defect is made shallower and tried again: what is recorded is
+       what was made */
+    for (int attempt = 0; attempt < 320; attempt++) {
+        if (attempt > 0 && attempt % 64 == 0)
+            depth *= 0.7;
         int o;
         double s_c;
         pick_position(part, arc, r, &o, &s_c);
@@ -347,8 +365,8 @@ static int local_defect(int type, const mb_synth_defect_opts *opt,
         }
         /* keep clear of every other edge by 0.3 mm (and of this outline
            beyond the stretch) */
-        double clear = clearance(part, arc, o, s_c, hw + 2 * depth + opt->step,
-                                 fine, nf);
+        double clear =
+            clearance(part, arc, o, s_c, hw + 2 * depth + opt->step, fine, nf);
         if (clear < 0.3 + 0.5 * opt->step)
             continue;
         /* merge, by arc position: the points outside the stretch (in order
@@ -458,7 +476,8 @@ static int contamination(const mb_synth_defect_opts *opt, mb_synth_rng *r,
             double t = 2 * M_PI * k / m;
             double ca = cos(t), sa = sin(t);
             double re = a * b / sqrt(b * b * ca * ca + a * a * sa * sa);
-            double rad = re * (1 + 0.06 * sin(3 * t + c1) + 0.04 * sin(5 * t + c2));
+            double rad =
+                re * (1 + 0.06 * sin(3 * t + c1) + 0.04 * sin(5 * t + c2));
             mb_synth_polys_point(c, cx + rad * cos(t + phi),
                                  cy + rad * sin(t + phi));
         }
@@ -473,8 +492,11 @@ static int contamination(const mb_synth_defect_opts *opt, mb_synth_rng *r,
             }
         size = ext;
     } else {
-        /* fibre: a thin, gently curved band crossing the edge */
-        double len = size, w = mb_synth_rng_range(r, 0.15, 0.3);
+        /* fibre: a thin, gently curved band crossing the edge, longer than
+           a blob is wide (1.5-6 mm unless the caller fixed the range) */
+        double len = opt->max_mm > 0 ? size : mb_synth_rng_range(r, 1.5, 6.0);
+        double w = mb_synth_rng_range(r, 0.15, 0.3);
+        size = len;
         double beta = mb_synth_rng_range(r, 30, 150) * M_PI / 180;
         double kappa = mb_synth_rng_range(r, -0.8, 0.8) / len;
         double q = mb_synth_rng_range(r, 0.15, 0.4);
@@ -563,7 +585,8 @@ static double outline_clearance(const mb_synth_polys *p, int o)
         int nb = mb_synth_polys_count(p, oo);
         for (int i = 0; i < na; i++)
             for (int j = 0; j < nb; j++) {
-                double dx = a[2 * i] - b[2 * j], dy = a[2 * i + 1] - b[2 * j + 1];
+                double dx = a[2 * i] - b[2 * j],
+                       dy = a[2 * i + 1] - b[2 * j + 1];
                 double d2 = dx * dx + dy * dy;
                 if (d2 < best)
                     best = d2;
@@ -648,8 +671,7 @@ int mb_synth_defect_apply(const mb_synth_family_def *f, int type,
     case MB_SYNTH_NICK:
     case MB_SYNTH_FLASH:
     case MB_SYNTH_TEAR:
-    case MB_SYNTH_MISSING:
-        return local_defect(type, o, r, part, sc, d);
+    case MB_SYNTH_MISSING: return local_defect(type, o, r, part, sc, d);
     case MB_SYNTH_CONTAMINATION:
         return contamination(o, r, part, contam, sc, d);
     case MB_SYNTH_DEFORM: {
@@ -676,7 +698,6 @@ int mb_synth_defect_apply(const mb_synth_family_def *f, int type,
     }
     case MB_SYNTH_WRONG_VARIANT:
         return wrong_variant(f, o, r, shape, part, sc, d);
-    default:
-        return MB_EINVAL;
+    default: return MB_EINVAL;
     }
 }

@@ -88,7 +88,7 @@ typedef struct {
     int n_outlines;
     int first[MB_MAX_OUTLINES + 1]; /* first point of each outline;
                                        first[n_outlines] == n when closed */
-    int overflow; /* set when a capacity was exceeded */
+    int overflow;                   /* set when a capacity was exceeded */
 } mb_synth_polys;
 
 void mb_synth_polys_clear(mb_synth_polys *p);
@@ -130,10 +130,10 @@ typedef struct {
 
 /* A physical part before imaging. */
 typedef struct {
-    double size;                       /* size factor */
-    double p[MB_SYNTH_MAX_PARAMS];     /* the family's parameters */
-    int mirror;                        /* lipseal wrong variant */
-    int hole_missing;                  /* flange: bolt hole left out, or -1 */
+    double size;                   /* size factor */
+    double p[MB_SYNTH_MAX_PARAMS]; /* the family's parameters */
+    int mirror;                    /* lipseal wrong variant */
+    int hole_missing;              /* flange: bolt hole left out, or -1 */
 } mb_synth_shape;
 
 typedef struct {
@@ -141,9 +141,9 @@ typedef struct {
     const char *part_number;
     int n_params;
     mb_synth_param params[MB_SYNTH_MAX_PARAMS];
-    double size_sd;       /* natural variation of the size factor */
-    double main_mm;       /* main dimension for WRONG_SIZE's recorded size */
-    int deform_param;     /* parameter DEFORM pushes out of range */
+    double size_sd;   /* natural variation of the size factor */
+    double main_mm;   /* main dimension for WRONG_SIZE's recorded size */
+    int deform_param; /* parameter DEFORM pushes out of range */
     double deform_lo, deform_hi; /* how far beyond 3 sd, in sd units */
     /* Build the outlines of a part (part frame, mm, before size). */
     void (*build)(const mb_synth_shape *s, double step, mb_synth_polys *out);
@@ -164,10 +164,10 @@ void mb_synth_shape_build(const mb_synth_family_def *f, const mb_synth_shape *s,
 
 /* Scratch for defect geometry, sized once by the generator. */
 typedef struct {
-    mb_synth_polys ref;   /* the same part without the defect */
-    mb_synth_polys tmp;   /* working copy */
-    double *arc;          /* cumulative arc length, cap + 1 */
-    double *sorted;       /* 3 * cap doubles for the merge */
+    mb_synth_polys ref; /* the same part without the defect */
+    mb_synth_polys tmp; /* working copy */
+    double *arc;        /* cumulative arc length, cap + 1 */
+    double *sorted;     /* 3 * cap doubles for the merge */
     int cap;
 } mb_synth_scratch;
 

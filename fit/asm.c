@@ -33,6 +33,7 @@
 
 #include "error.h"
 
+#include <cblas.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -40,7 +41,18 @@
 /* Gauss-Newton steps of the final fit, and its prior on b (px^2 per
    sd^2; see fit_measured). */
 #define FIT_STEPS 8
-#define FIT_PRIOR 1e-4
+#define FIT_PRIOR 1e-3
+#define FIT_DAMP 1e-9
+#define FIT_TRUST 2.0
+#define FIT_TOL 1e-3
+/* Measure-and-fit rounds at full resolution: another round while the fit
+   moved a landmark by more than MEASURE_MOVE px. */
+#define MEASURE_ROUNDS 3
+#define MEASURE_MOVE 1.0
+/* Following a measured outline (see follow): rounds, and how many
+   landmarks along the outline a landmark may have slid. */
+#define FOLLOW_ROUNDS 12
+#define FOLLOW_WINDOW 24
 
 struct mb_asm {
     const mb_shape_model *sm;
@@ -64,7 +76,11 @@ struct mb_asm {
     double *kappa;    /* n signed curvature of the model outline */
     double blur;      /* edge blur estimated by the last measurement, px */
     double radius;    /* RMS radius of the mean shape, model units */
-    double *gn_a, *gn_g, *gn_row; /* final fit: (4+k)^2, 4+k, 4+k */
+    double *sd;       /* k: sqrt(lambda) */
+    double *gn_a, *gn_g; /* final fit: (4+k)^2, 4+k */
+    double *gn_r, *gn_res; /* final fit: n x (4+k), n */
+    double *poly;     /* 2n: a measured outline being followed */
+    uint8_t *pvalid;  /* n */
     uint8_t *valid;   /* n */
     uint8_t *use;     /* n: in the final fit */
     double *fit_work; /* mb_shape_model_fit_work_size */
@@ -110,7 +126,11 @@ void mb_asm_close(mb_asm *a)
     free(a->kappa);
     free(a->gn_a);
     free(a->gn_g);
-    free(a->gn_row);
+    free(a->sd);
+    free(a->gn_r);
+    free(a->gn_res);
+    free(a->poly);
+    free(a->pvalid);
     free(a->valid);
     free(a->use);
     free(a->fit_work);
@@ -214,7 +234,11 @@ int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
     a->kappa = take(a, n, sizeof(double));
     a->gn_a = take(a, (4 + k) * (4 + k), sizeof(double));
     a->gn_g = take(a, 4 + k, sizeof(double));
-    a->gn_row = take(a, 4 + k, sizeof(double));
+    a->sd = take(a, k, sizeof(double));
+    a->gn_r = take(a, n * (4 + k), sizeof(double));
+    a->gn_res = take(a, n, sizeof(double));
+    a->poly = take(a, d, sizeof(double));
+    a->pvalid = take(a, n, 1);
     a->valid = take(a, n, 1);
     a->use = take(a, n, 1);
     a->fit_work = take(a, (size_t)mb_shape_model_fit_work_size(sm), sizeof(double));
@@ -225,10 +249,13 @@ int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
     a->cost = take(a, (size_t)(2 * ns + 1), sizeof(double));
     if (!a->b || !a->b_best || !a->b_sd || !a->xm || !a->pts || !a->nrm ||
         !a->target || !a->meas || !a->dist || !a->absd || !a->kappa || !a->gn_a || !a->gn_g ||
-        !a->gn_row || !a->valid ||
+        !a->sd || !a->gn_r || !a->gn_res || !a->poly || !a->pvalid || !a->valid ||
         !a->use || !a->fit_work || !a->grey || !a->diff || !a->g ||
         !a->cwork || !a->cost)
         goto fail;
+    const double *eig = mb_shape_model_eig(sm);
+    for (int j = 0; j < a->k; j++)
+        a->sd[j] = sqrt(eig[j]);
     *out = a;
     return MB_OK;
 fail:
@@ -564,88 +591,162 @@ static int solve_spd(double *A, double *g, int dim)
  * Gauss-Newton over u = (tx, ty, angle, log scale, c) with c = b / sd:
  *     dp/dtx = (1, 0), dp/dty = (0, 1), dp/dangle = J (p - t),
  *     dp/dlog s = p - t, dp/dc_j = s R(angle) P_j,i sd_j,
- * J the quarter turn; minimising sum r_i^2 + FIT_PRIOR |c|^2, the prior
- * (px^2 per sd^2) so weak that it only settles what the outline cannot
- * (a ring's rotation, a mode that only slides landmarks along the outline),
- * and a tiny damping for the same reason. b is bounded by b_limit sd after
- * each step. Leaves the outline placed; *clamped: modes on the bound.
+ * J the quarter turn; each step minimises
+ *     sum_i (r_i - n_i . J_i du)^2 + FIT_PRIOR |c + dc|^2
+ * plus a Levenberg-Marquardt damping of FIT_DAMP times the trace on the
+ * diagonal, which only keeps motions the outline cannot see at all (a
+ * perfect ring's rotation) from wandering. The prior is
+ * the model's own, b ~ N(0, lambda), weighted by the variance of one
+ * measured point (~0.03^2 px^2): the maximum a posteriori fit, which
+ * leaves every b the outline can see as the measurement says and settles
+ * the others at 0. A step that would move a
+ * landmark more than FIT_TRUST px is shortened to that (a trust region:
+ * the tangent lines hold only near the measured points). b is bounded by
+ * b_limit sd after each step. Leaves the outline placed; *clamped: modes on
+ * the bound.
  */
 static int fit_measured(mb_asm *a, mb_pose *pose, int *clamped)
 {
-    const int k = a->k, dim = 4 + k, d = a->dim;
+    const int k = a->k, dim = 4 + k, d = a->dim, n = a->n;
     const double *modes = mb_shape_model_modes(a->sm);
-    const double *eig = mb_shape_model_eig(a->sm);
-    double *A = a->gn_a, *g = a->gn_g, *row = a->gn_row;
+    double *A = a->gn_a, *g = a->gn_g, *R = a->gn_r, *res = a->gn_res;
     for (int it = 0; it < FIT_STEPS; it++) {
         const double c = cos(pose->angle) * pose->scale, sn = sin(pose->angle) * pose->scale;
-        memset(A, 0, (size_t)dim * dim * sizeof *A);
-        memset(g, 0, (size_t)dim * sizeof *g);
-        for (int i = 0; i < a->n; i++) {
+        /* rows n_i . J_i of the used landmarks, column-major m x dim (ld n),
+           and their residuals */
+        int m = 0;
+        for (int i = 0; i < n; i++) {
             if (!a->use[i])
                 continue;
             const double nx = a->nrm[2 * i], ny = a->nrm[2 * i + 1];
             const double px = a->pts[2 * i] - pose->tx, py = a->pts[2 * i + 1] - pose->ty;
-            const double r = nx * (a->meas[2 * i] - a->pts[2 * i]) +
-                             ny * (a->meas[2 * i + 1] - a->pts[2 * i + 1]);
-            row[0] = nx;
-            row[1] = ny;
-            row[2] = -nx * py + ny * px;
-            row[3] = nx * px + ny * py;
+            res[m] = nx * (a->meas[2 * i] - a->pts[2 * i]) +
+                     ny * (a->meas[2 * i + 1] - a->pts[2 * i + 1]);
+            R[m] = nx;
+            R[m + (size_t)n] = ny;
+            R[m + 2 * (size_t)n] = -nx * py + ny * px;
+            R[m + 3 * (size_t)n] = nx * px + ny * py;
+            /* n . s R(angle) u = u . s R(-angle) n */
+            const double rx = c * nx + sn * ny, ry = -sn * nx + c * ny;
             for (int j = 0; j < k; j++) {
                 const double *u = modes + (size_t)j * d + 2 * i;
-                double sd = sqrt(eig[j]);
-                row[4 + j] = sd * (nx * (c * u[0] - sn * u[1]) + ny * (sn * u[0] + c * u[1]));
+                R[m + (size_t)(4 + j) * n] = a->sd[j] * (rx * u[0] + ry * u[1]);
             }
-            for (int q = 0; q < dim; q++) {
-                g[q] += row[q] * r;
-                for (int p = q; p < dim; p++)
-                    A[p + (size_t)q * dim] += row[p] * row[q];
-            }
+            m++;
         }
+        if (m < 3)
+            return MB_EDEGENERATE;
+        /* normal equations (lower triangle): A = R^T R, g = R^T res */
+        cblas_dsyrk(CblasColMajor, CblasLower, CblasTrans, dim, m, 1.0, R, n, 0.0, A, dim);
+        cblas_dgemv(CblasColMajor, CblasTrans, m, dim, 1.0, R, n, res, 1, 0.0, g, 1);
         double tr = 0.0;
         for (int q = 0; q < dim; q++)
             tr += A[q + (size_t)q * dim];
-        for (int q = 0; q < dim; q++) {
-            A[q + (size_t)q * dim] += 1e-12 * tr + 1e-300;
-            for (int p = 0; p < q; p++) /* mirror the lower triangle */
-                A[p + (size_t)q * dim] = A[q + (size_t)p * dim];
-        }
+        for (int q = 0; q < dim; q++)
+            A[q + (size_t)q * dim] += FIT_DAMP * tr + 1e-300;
         for (int j = 0; j < k; j++) {
-            double cj = a->b[j] / sqrt(eig[j]);
             A[(4 + j) + (size_t)(4 + j) * dim] += FIT_PRIOR;
-            g[4 + j] -= FIT_PRIOR * cj;
+            g[4 + j] -= FIT_PRIOR * a->b[j] / a->sd[j];
         }
         int rc = solve_spd(A, g, dim);
         if (rc != MB_OK)
             return rc;
+        /* trust region: no landmark may move more than FIT_TRUST px in
+           one step (the linearisation and the tangent lines hold only
+           that far) */
+        double far = 0.0;
+        for (int i = 0; i < n; i++) {
+            const double px = a->pts[2 * i] - pose->tx, py = a->pts[2 * i + 1] - pose->ty;
+            double ux = 0.0, uy = 0.0; /* mode motion in the model frame */
+            for (int j = 0; j < k; j++) {
+                const double *u = modes + (size_t)j * d + 2 * i;
+                ux += g[4 + j] * a->sd[j] * u[0];
+                uy += g[4 + j] * a->sd[j] * u[1];
+            }
+            double mx = g[0] - g[2] * py + g[3] * px + c * ux - sn * uy;
+            double my = g[1] + g[2] * px + g[3] * py + sn * ux + c * uy;
+            far = fmax(far, mx * mx + my * my);
+        }
+        far = sqrt(far);
+        double shrink = far > FIT_TRUST ? FIT_TRUST / far : 1.0;
+        for (int q = 0; q < dim; q++)
+            g[q] *= shrink;
         pose->tx += g[0];
         pose->ty += g[1];
         pose->angle += g[2];
         pose->scale *= exp(g[3]);
-        double step = fabs(g[0]) + fabs(g[1]) +
-                      (fabs(g[2]) + fabs(g[3])) * pose->scale * a->radius;
-        for (int j = 0; j < k; j++) {
-            double sd = sqrt(eig[j]);
-            a->b[j] += g[4 + j] * sd;
-            step += fabs(g[4 + j]) * 1e-3;
-        }
         *clamped = 0;
-        if (a->p.b_limit > 0.0)
-            for (int j = 0; j < k; j++) {
-                double lim = a->p.b_limit * sqrt(eig[j]);
+        for (int j = 0; j < k; j++) {
+            a->b[j] += g[4 + j] * a->sd[j];
+            if (a->p.b_limit > 0.0) {
+                double lim = a->p.b_limit * a->sd[j];
                 if (a->b[j] >= lim || a->b[j] <= -lim) {
                     a->b[j] = a->b[j] > 0.0 ? lim : -lim;
                     (*clamped)++;
                 }
             }
+        }
         if (!isfinite(pose->tx) || !isfinite(pose->ty) || !isfinite(pose->angle) ||
             !(pose->scale > 0.0) || !isfinite(pose->scale))
             return MB_ENUMERIC;
         place(a, pose);
-        if (step < 1e-4)
+        if (far * shrink < FIT_TOL)
             break;
     }
     return MB_OK;
+}
+
+/*
+ * Re-associate the model with an outline measured before (poly, pvalid)
+ * after the model has moved along it: each landmark's normal is intersected
+ * with the segments of the measured polyline of its own outline within
+ * FOLLOW_WINDOW landmarks of it (both ends valid); the nearest crossing
+ * within refine_range becomes its measured point. No image access: this
+ * lets the fit turn an oval ring by many pixels along its outline, where
+ * the point-to-tangent distance of one measurement holds only for slides
+ * of a few px. Returns the landmarks given a point.
+ */
+static int follow(mb_asm *a)
+{
+    const mb_layout *lay = mb_shape_model_layout(a->sm);
+    const double *q = a->poly;
+    int nv = 0;
+    for (int o = 0, first = 0; o < lay->n_outlines; first += lay->counts[o], o++) {
+        const int cnt = lay->counts[o];
+        for (int r = 0; r < cnt; r++) {
+            const int i = first + r;
+            const double px = a->pts[2 * i], py = a->pts[2 * i + 1];
+            const double nx = a->nrm[2 * i], ny = a->nrm[2 * i + 1];
+            double best = INFINITY;
+            a->valid[i] = 0;
+            for (int w = -FOLLOW_WINDOW; w <= FOLLOW_WINDOW; w++) {
+                int j0 = first + ((r + w) % cnt + cnt) % cnt;
+                int j1 = first + ((r + w + 1) % cnt + cnt) % cnt;
+                if (!a->pvalid[j0] || !a->pvalid[j1])
+                    continue;
+                double ax = q[2 * j0], ay = q[2 * j0 + 1];
+                double ex = q[2 * j1] - ax, ey = q[2 * j1 + 1] - ay;
+                double den = nx * ey - ny * ex; /* cross(n, e) */
+                if (den == 0.0)
+                    continue;
+                double dx = ax - px, dy = ay - py;
+                double t = (dx * ey - dy * ex) / den; /* cross(d, e) / den */
+                double u = (dx * ny - dy * nx) / den; /* cross(d, n) / den */
+                if (u < 0.0 || u > 1.0 || fabs(t) > a->p.refine_range)
+                    continue;
+                if (fabs(t) < fabs(best))
+                    best = t;
+            }
+            if (isfinite(best)) {
+                a->valid[i] = 1;
+                a->meas[2 * i] = px + best * nx;
+                a->meas[2 * i + 1] = py + best * ny;
+                nv++;
+            }
+        }
+    }
+    memcpy(a->use, a->valid, (size_t)a->n);
+    return nv;
 }
 
 /* dist = (measured - model) . normal for valid points. */
@@ -755,13 +856,22 @@ int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
     }
 
     /* Measure at full resolution along the fitted outline, fit to the
-       measured points, leave out outliers, fit again. */
-    place(a, &pose);
-    res->n_valid = measure(a, img0);
+       measured points, leave out outliers, fit again; when that fit moved
+       the outline by more than MEASURE_MOVE px (a rotation the search could
+       not see, e.g. of an oval ring), measure again along the new normals
+       so that measured point i stays beside model point i. */
     res->converged = converged && !broke;
-    memcpy(a->use, a->valid, (size_t)a->n);
-    if (res->n_valid >= 3 && !broke) {
+    place(a, &pose);
+    for (int round = 1;; round++) {
+        res->n_valid = measure(a, img0);
+        res->measure_rounds = round;
+        res->n_outliers = 0;
+        memcpy(a->use, a->valid, (size_t)a->n);
+        if (res->n_valid < 3 || broke)
+            break;
         mb_pose keep = pose;
+        memcpy(a->b_best, a->b, kb);
+        memcpy(a->target, a->pts, (size_t)a->dim * sizeof *a->pts);
         int clamped = 0;
         int rc = fit_measured(a, &pose, &clamped);
         if (rc == MB_OK) {
@@ -785,8 +895,34 @@ int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
         if (rc != MB_OK) {
             /* keep the search's outline; the result is not converged */
             pose = keep;
+            memcpy(a->b, a->b_best, kb);
             res->converged = 0;
             place(a, &pose);
+            break;
+        }
+        double moved = 0.0;
+        for (int i = 0; i < a->n; i++)
+            moved = fmax(moved, hypot(a->pts[2 * i] - a->target[2 * i],
+                                      a->pts[2 * i + 1] - a->target[2 * i + 1]));
+        if (moved <= MEASURE_MOVE || round == MEASURE_ROUNDS)
+            break;
+        /* The fit moved the outline far: follow this measured outline
+           until the model settles on it, then measure the image again. */
+        memcpy(a->poly, a->meas, (size_t)a->dim * sizeof *a->meas);
+        memcpy(a->pvalid, a->valid, (size_t)a->n);
+        for (int f = 0; f < FOLLOW_ROUNDS; f++) {
+            if (follow(a) < 3)
+                break;
+            memcpy(a->target, a->pts, (size_t)a->dim * sizeof *a->pts);
+            if (fit_measured(a, &pose, &clamped) != MB_OK)
+                break; /* the image measurement below decides */
+            double step = 0.0;
+            for (int i = 0; i < a->n; i++)
+                step = fmax(step, hypot(a->pts[2 * i] - a->target[2 * i],
+                                        a->pts[2 * i + 1] - a->target[2 * i + 1]));
+            res->follow_rounds++;
+            if (step <= 0.1)
+                break;
         }
     }
     distances(a);

@@ -39,7 +39,14 @@
  * points farther than max(outlier_px, 3 robust sigma) from the fitted
  * outline are left out and the fit is repeated, so that a nick or flash
  * shows as a large distance measured - model instead of dragging the model
- * along. Only full-resolution pixels along the outline are read.
+ * along. When that fit moved the outline by more than 1 px (for example it
+ * turned an oval ring to its ovality), the outline is measured again along
+ * the new normals and fitted again, at most 3 rounds, so that measured
+ * point i lies on model point i's normal; between rounds the model first
+ * follows the outline already measured (each normal intersected with that
+ * polyline, refit, repeat), which lets it turn by many pixels along its
+ * outline at no image cost. Only full-resolution pixels along the outline
+ * are read.
  *
  * Signs: dist = (measured - model) . normal, px, with the normal pointing
  * from the part into the background: positive where material stands out
@@ -132,6 +139,12 @@ typedef struct {
     int clamped;            /**< modes on the bound after the final fit */
     double fit_rms;         /**< RMS of dist over the points in the final
                                  fit, px */
+    int measure_rounds;     /**< measure-and-fit rounds at full
+                                 resolution (1..3: another when the fit
+                                 moved the outline by more than 1 px) */
+    int follow_rounds;      /**< fits to an earlier measured outline
+                                 between those rounds (0 unless the fit
+                                 had to turn the model along its outline) */
     double edge_blur;       /**< blur sigma of the part's edges estimated
                                  from the measured profiles, px (optics,
                                  pixel footprint and interpolation) */

@@ -123,6 +123,12 @@ static void normal_lookup(const normal_table *nt, double z, double *pdf,
 }
 
 typedef struct {
+    int x0, x1;    /* columns, inclusive */
+    int32_t label; /* provisional label */
+    unsigned char cls;
+} run;
+
+typedef struct {
     int area;           /* pixels at the working level */
     int x0, y0, x1, y1; /* bounding box, inclusive */
     int first;          /* index of the raster-first pixel */
@@ -143,7 +149,7 @@ struct mb_outliner {
     mb_pyramid *own;       /* pyramid for mb_outliner_run */
     const mb_pyramid *pyr; /* pyramid of the last run */
     int lw, lh;            /* working level size */
-    unsigned char *bin;    /* lw * lh: 1 bright, 0 dark */
+    run *runs;             /* 2 * lw: this row's and the last row's runs */
     int32_t *label;        /* lw * lh provisional labels */
     int32_t *parent;       /* union-find over labels, cap_labels + 1 */
     comp *comps;           /* per label, cap_labels + 1 */
@@ -339,7 +345,7 @@ void mb_outliner_close(mb_outliner *o)
     if (!o)
         return;
     mb_pyramid_close(o->own);
-    free(o->bin);
+    free(o->runs);
     free(o->label);
     free(o->parent);
     free(o->comps);
@@ -433,7 +439,7 @@ int mb_outliner_create(int width, int height, const mb_outline_config *cfg,
     o->cap_labels = (int)npx;
     /* every crack lies on at most one traced outline */
     o->cap_trace = (int)(2 * npx + (size_t)o->lw + (size_t)o->lh + 4);
-    o->bin = malloc(npx);
+    o->runs = malloc(2 * (size_t)o->lw * sizeof *o->runs);
     o->label = malloc(npx * sizeof *o->label);
     o->parent = malloc(((size_t)o->cap_labels + 1) * sizeof *o->parent);
     o->comps = malloc(((size_t)o->cap_labels + 1) * sizeof *o->comps);
@@ -445,7 +451,7 @@ int mb_outliner_create(int width, int height, const mb_outline_config *cfg,
     o->nrm = malloc(2 * (size_t)cfg->points * sizeof *o->nrm);
     o->kap = malloc((size_t)cfg->points * sizeof *o->kap);
     o->scratch = malloc(2 * (size_t)o->cap_trace * sizeof *o->scratch);
-    if (!o->bin || !o->label || !o->parent || !o->comps || !o->trace ||
+    if (!o->runs || !o->label || !o->parent || !o->comps || !o->trace ||
         !o->cum || !o->points || !o->sigmas || !o->steps || !o->nrm ||
         !o->kap || !o->scratch)
         goto fail;
@@ -488,57 +494,75 @@ static int32_t join(int32_t *parent, int32_t a, int32_t b)
     return rb;
 }
 
-/* Label bin: class part_cls 8-connected, the other class 4-connected.
- * Afterwards parent[l] is the root of every label l and comps[root] holds
- * the component's statistics. Returns the number of labels. */
-static int label_components(mb_outliner *o, int part_cls)
+/* Label the working level lv split at t (bright: grey > t): class
+ * part_cls 8-connected, the other class 4-connected. Works on runs of equal
+ * class along each row: a run joins the runs of its class in the row above
+ * that overlap it (4-connected) or overlap or touch it diagonally
+ * (8-connected). Afterwards parent[l] is the root of every label l and
+ * comps[root] holds the component's statistics. Returns the number of
+ * labels. */
+static int label_components(mb_outliner *o, const mb_image *lv, int t,
+                            int part_cls)
 {
     const int W = o->lw, H = o->lh;
-    const unsigned char *bin = o->bin;
     int32_t *lab = o->label, *parent = o->parent;
     comp *cs = o->comps;
-    int n = 0;
+    run *prev = o->runs, *cur = o->runs + W;
+    int n = 0, n_prev = 0;
     for (int y = 0; y < H; y++) {
-        for (int x = 0; x < W; x++) {
-            size_t i = (size_t)y * W + x;
-            int c = bin[i];
+        const uint8_t *r = lv->pixels + (size_t)y * lv->stride;
+        int n_cur = 0, j = 0;
+        for (int x0 = 0; x0 < W;) {
+            const int c = r[x0] > t;
+            int x1 = x0;
+            while (x1 + 1 < W && (r[x1 + 1] > t) == c)
+                x1++;
+            /* runs of the row above that can touch [x0, x1] */
+            const int d = c == part_cls; /* diagonal reach */
+            while (j < n_prev && prev[j].x1 < x0 - 1)
+                j++;
             int32_t l = 0;
-            if (x > 0 && bin[i - 1] == c)
-                l = lab[i - 1];
-            if (y > 0) {
-                if (bin[i - W] == c)
-                    l = l ? join(parent, l, lab[i - W]) : lab[i - W];
-                if (c == part_cls) {
-                    if (x > 0 && bin[i - W - 1] == c)
-                        l = l ? join(parent, l, lab[i - W - 1])
-                              : lab[i - W - 1];
-                    if (x + 1 < W && bin[i - W + 1] == c)
-                        l = l ? join(parent, l, lab[i - W + 1])
-                              : lab[i - W + 1];
-                }
+            for (int k = j; k < n_prev && prev[k].x0 <= x1 + 1; k++) {
+                if (prev[k].cls != c || prev[k].x1 < x0 - d ||
+                    prev[k].x0 > x1 + d)
+                    continue;
+                l = l ? join(parent, l, prev[k].label) : prev[k].label;
             }
             if (!l) {
                 l = ++n;
                 MB_ASSERT(n <= o->cap_labels);
                 parent[l] = l;
                 cs[l].area = 0;
-                cs[l].x0 = cs[l].x1 = x;
+                cs[l].x0 = x0;
+                cs[l].x1 = x1;
                 cs[l].y0 = cs[l].y1 = y;
-                cs[l].first = (int)i;
+                cs[l].first = y * W + x0;
                 cs[l].cls = (unsigned char)c;
                 cs[l].border = 0;
             }
-            lab[i] = l;
             comp *k = &cs[l];
-            k->area++;
-            if (x < k->x0)
-                k->x0 = x;
-            if (x > k->x1)
-                k->x1 = x;
+            k->area += x1 - x0 + 1;
+            if (x0 < k->x0)
+                k->x0 = x0;
+            if (x1 > k->x1)
+                k->x1 = x1;
             k->y1 = y;
-            if (x == 0 || y == 0 || x == W - 1 || y == H - 1)
+            if (x0 == 0 || x1 == W - 1 || y == 0 || y == H - 1)
                 k->border = 1;
+            int32_t *row = lab + (size_t)y * W;
+            for (int x = x0; x <= x1; x++)
+                row[x] = l;
+            cur[n_cur].x0 = x0;
+            cur[n_cur].x1 = x1;
+            cur[n_cur].cls = (unsigned char)c;
+            cur[n_cur].label = l;
+            n_cur++;
+            x0 = x1 + 1;
         }
+        run *tmp = prev;
+        prev = cur;
+        cur = tmp;
+        n_prev = n_cur;
     }
     /* flatten and merge the statistics into the roots; the root is the
      * smallest label of its set, so its first pixel is the set's first */
@@ -1093,15 +1117,12 @@ int mb_outliner_run_pyramid(mb_outliner *o, const mb_pyramid *pyr,
     long border_bright = 0, border_all = 0;
     for (int y = 0; y < H; y++) {
         const uint8_t *r = lv->pixels + (size_t)y * lv->stride;
-        unsigned char *b = o->bin + (size_t)y * W;
-        for (int x = 0; x < W; x++)
-            b[x] = r[x] > t;
         if (y == 0 || y == H - 1) {
             for (int x = 0; x < W; x++)
-                border_bright += b[x];
+                border_bright += r[x] > t;
             border_all += W;
         } else {
-            border_bright += b[0] + (W > 1 ? b[W - 1] : 0);
+            border_bright += (r[0] > t) + (W > 1 && r[W - 1] > t);
             border_all += W > 1 ? 2 : 1;
         }
     }
@@ -1109,16 +1130,15 @@ int mb_outliner_run_pyramid(mb_outliner *o, const mb_pyramid *pyr,
     int part_bright;
     if (border_bright != border_dark)
         part_bright = border_bright < border_dark;
-    else
-        part_bright =
-            ot->weight_dark > 0.5; /* the minority class; a tie: dark */
+    else /* the minority class; on a tie, dark */
+        part_bright = ot->weight_dark > 0.5;
     const int part_cls = part_bright;
     o->part_dark = res->part_dark = !part_bright;
     o->mid = 0.5 * (ot->mean_dark + ot->mean_bright);
     o->min_step = 0.5 * o->cfg.min_contrast;
 
     /* 3. components and the part */
-    int n_labels = label_components(o, part_cls);
+    int n_labels = label_components(o, lv, t, part_cls);
     const double blob_px = o->cfg.min_blob_area / px_area;
     const double part_px = o->cfg.min_part_area / px_area;
     const double hole_px = o->cfg.min_hole_area / px_area;

@@ -18,7 +18,11 @@
  *      convention of skimage.filters.threshold_otsu). No part (MB_ENOPART)
  *      when the class means differ by less than min_contrast or Otsu's
  *      separability eta (between-class over total variance) is below
- *      min_separability: a one-colour or pure-texture frame.
+ *      min_separability: a one-colour or pure-texture frame. One global
+ *      threshold needs fairly even lighting: on the synthetic line
+ *      (capture/synth.h) parts were found with frame corners up to 35 %
+ *      darker than the centre, not at 50 %, where Otsu splits the field
+ *      itself (no flat-field correction is made here).
  *   2. Polarity. The part is the class holding fewer of the pixels of the
  *      level's border (first and last row and column); on a tie, the class
  *      with fewer pixels overall; on a further tie, the dark class. So a
@@ -60,9 +64,9 @@
  *      mb_outline_counts). Points are spaced evenly by arc length.
  *  10. First point of each outline: where the ray from the outline's
  *      centroid (of its enclosed area) towards +x (right on screen) leaves
- *      the outline for the last time; the point of largest x when that ray
- *      misses (not possible for a closed outline around its centroid, kept
- *      as a guard).
+ *      the outline for the last time (its crossing of largest x); the
+ *      traced point of largest x when the ray meets no edge (the centroid
+ *      of a bent part can lie outside it, to its right).
  *
  * Coordinates: full-resolution image px, x right, y down, pixel centres at
  * integers (fit/image.h).
@@ -82,9 +86,12 @@ typedef struct {
                                tracing: 0 (full size) .. 6; higher is faster and
                                loses small holes; default 2 */
     int points;           /**< total points over all outlines (the budget);
-                               also the capacity of mb_outliner_resample;
-                               1 px spacing or finer for input to the
-                               correspondence solver; default 1024 */
+                               also the capacity of mb_outliner_resample.
+                               Each point costs about 1 us. As input to the
+                               correspondence solver, which resamples the
+                               polygons, keep the spacing near 2 px or
+                               finer (a 2 px chord lies 0.03 px inside a
+                               circle of radius 16 px); default 1024 */
     int min_points;       /**< fewest points on one outline, >= 3; default 16 */
     double min_blob_area; /**< px^2 (full res): smaller part-class
                                components are specks (dust, noise); a
@@ -228,7 +235,9 @@ int mb_outliner_run_pyramid(mb_outliner *o, const mb_pyramid *pyr,
  * Resample the outlines of the last successful run with a given layout
  * instead of the budget (for example the layout of a reference image, so
  * that every training image has the same counts) and measure the points
- * again. The frame or pyramid of that run must still be alive.
+ * again. The frame or pyramid of that run must still be alive. *res is
+ * overwritten: what the run found, with the new points, lengths, areas,
+ * spacings and fit figures. Allocates nothing.
  * Return value: 0; MB_EINVAL (NULL, no previous run, bad layout);
  * MB_ESIZE (layout has another number of outlines than the run found, or
  * more points than the budget).

@@ -22,6 +22,29 @@ typedef struct {
     int dark_part;      /**< 1: part darker than the field (back-lit) */
 } mb_imaging;
 
+/** Most drawing gauges one part may have. */
+#define MB_MAX_GAUGES 16
+
+/** What a gauge measures on the measured outline. */
+typedef enum {
+    MB_GAUGE_DIAMETER = 1,  /**< least-squares circle diameter of outline a */
+    MB_GAUGE_WIDTH_MIN,     /**< least caliper width of outline a */
+    MB_GAUGE_WIDTH_MAX,     /**< greatest caliper width of outline a */
+    MB_GAUGE_SPACING,       /**< distance between the centroids of outlines a, b */
+    MB_GAUGE_LENGTH,        /**< perimeter of outline a */
+    MB_GAUGE_AREA           /**< area enclosed by outline a (mm^2) */
+} mb_gauge_kind;
+
+/** A drawing dimension: kind, outlines, nominal and tolerance in mm. */
+typedef struct {
+    char name[48];        /**< as on the drawing, e.g. "ID", "bolt pitch" */
+    mb_gauge_kind kind;
+    int a, b;             /**< outline indices (b only for SPACING) */
+    double nominal;       /**< mm (mm^2 for AREA) */
+    double tol_lo, tol_hi;/**< accepted: nominal + tol_lo .. nominal + tol_hi
+                               (tol_lo <= 0 <= tol_hi) */
+} mb_gauge_def;
+
 typedef struct {
     char name[128];            /**< part name / number, free text */
     mb_shape_model *shape;     /**< owned; never NULL in a valid model */
@@ -29,6 +52,8 @@ typedef struct {
     int has_limits;
     mb_limits limits;          /**< owned arrays when has_limits */
     mb_imaging imaging;
+    int n_gauges;
+    mb_gauge_def gauges[MB_MAX_GAUGES];
 } mb_part_model;
 
 /** Free every owned part and zero the struct. NULL-safe. */

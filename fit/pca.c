@@ -20,6 +20,7 @@
 #include "pca.h"
 
 #include "error.h"
+#include "mem_internal.h"
 
 #include <cblas.h>
 #include <lapacke.h>
@@ -144,7 +145,7 @@ int mb_pca_compute(const double *x, int ld, int d, int m,
     if (m < 2)
         return mb_err_set(err, MB_EDEGENERATE,
                           "PCA needs at least 2 samples, got %d", m);
-    double *copy = malloc((size_t)d * (size_t)m * sizeof *copy);
+    double *copy = mb_big_alloc((size_t)d * (size_t)m * sizeof *copy);
     if (!copy)
         return mb_err_set(err, MB_ENOMEM,
                           "PCA: out of memory for %d vectors of dimension %d",
@@ -187,7 +188,7 @@ int mb_pca_compute_inplace(double *x, int ld, int d, int m,
     size_t sd = (size_t)d, snn = (size_t)nn;
 
     double *mean = malloc(sd * sizeof *mean);
-    double *a = malloc(snn * snn * sizeof *a);
+    double *a = mb_big_alloc(snn * snn * sizeof *a);
     double *tri = malloc(snn * 5 * sizeof *tri);
     double *w = malloc(3 * snn * sizeof *w);
     double *eig = malloc((size_t)n_eig * sizeof *eig);

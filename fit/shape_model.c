@@ -19,6 +19,7 @@
 #include "shape_model.h"
 
 #include "error.h"
+#include "mem_internal.h"
 
 #include <cblas.h>
 #include <math.h>
@@ -212,7 +213,7 @@ int mb_shape_model_build(const double *shapes, int ld, const mb_layout *layout,
 
     mb_pca pca = {0};
     mb_gpa_info gi = {0};
-    double *aligned = malloc((size_t)d * (size_t)m * sizeof *aligned);
+    double *aligned = mb_big_alloc((size_t)d * (size_t)m * sizeof *aligned);
     double *gmean = malloc((size_t)d * sizeof *gmean);
     int rc;
     if (!aligned || !gmean) {
@@ -223,6 +224,13 @@ int mb_shape_model_build(const double *shapes, int ld, const mb_layout *layout,
     if (rc < 0)
         goto done;
     rc = mb_pca_compute_inplace(aligned, d, d, m, pp, &pca, err);
+    if (rc == MB_EDEGENERATE) {
+        mb_err_set(err, rc,
+                   "all %d training shapes are the same up to position, "
+                   "rotation and scale: there is no shape variation to model",
+                   m);
+        goto done;
+    }
     if (rc < 0)
         goto done;
     mb_train_info ti;

@@ -24,6 +24,48 @@ static const char *const info_help =
     "\n"
     "Exit status: 0 done, 1 failure (unreadable or invalid model), 2 usage.\n";
 
+static void print_part(const mb_part_model *pm)
+{
+    const mb_imaging *im = &pm->imaging;
+    if (pm->name[0])
+        printf("part:       %s\n", pm->name);
+    if (im->width > 0)
+        printf("imaging:    %dx%d px frames, %s part, %s\n", im->width,
+               im->height, im->dark_part ? "dark" : "bright",
+               im->mm_per_px > 0 ? "scale given" : "no scale (sizes in px)");
+    if (im->mm_per_px > 0)
+        printf("scale:      %.5g mm per px\n", im->mm_per_px);
+    if (pm->profiles) {
+        const mb_profile_params *pp = mb_profile_model_params(pm->profiles);
+        printf("profiles:   %d pyramid levels, %d samples across the edge\n",
+               pp->levels, 2 * pp->half_len + 1);
+    } else {
+        printf("profiles:   none (taught from points: cannot inspect images)\n");
+    }
+    if (!pm->has_limits) {
+        printf("limits:     none\n");
+        return;
+    }
+    const mb_limits *l = &pm->limits;
+    double mm = im->mm_per_px;
+    printf("limits:     learned from %d good parts for %.2f %% false rejects\n",
+           l->n_train, 100.0 * l->alpha);
+    printf("  size (RMS radius) %.3f .. %.3f px", l->size_lo, l->size_hi);
+    if (mm > 0)
+        printf(" (%.3f .. %.3f mm)", l->size_lo * mm, l->size_hi * mm);
+    printf("\n");
+    for (int q = 0; q < l->n_judged; q++)
+        printf("  mode %d within +-%.2f sd\n", q + 1, l->mode_band[q]);
+    printf("  T^2 limit %.2f, residual limit %.3g\n", l->t2_limit, l->spe_limit);
+    double lo = 1e300, hi = 0;
+    for (int j = 0; j < l->n_landmarks; j++) {
+        lo = fmin(lo, l->local_limit[j]);
+        hi = fmax(hi, l->local_limit[j]);
+    }
+    printf("  local deviation %.2f .. %.2f px\n", lo, hi);
+    printf("  leave-one-out false rejects: %d of %d\n", l->loo_rejects, l->n_train);
+}
+
 static void print_text(const char *path, const mb_shape_model *m)
 {
     const mb_layout *l = mb_shape_model_layout(m);
@@ -50,8 +92,9 @@ static void print_text(const char *path, const mb_shape_model *m)
     }
 }
 
-static int print_json(const char *path, const mb_shape_model *m)
+static int print_json(const char *path, const mb_part_model *pm)
 {
+    const mb_shape_model *m = pm->shape;
     const mb_layout *l = mb_shape_model_layout(m);
     const mb_train_info *ti = mb_shape_model_info(m);
     const double *eig = mb_shape_model_eig(m);
@@ -86,6 +129,23 @@ static int print_json(const char *path, const mb_shape_model *m)
     cJSON_AddItemToObject(o, "variances", var);
     cJSON_AddItemToObject(o, "variance_fraction", frac);
     cJSON_AddNumberToObject(o, "total_variance", total);
+    cJSON_AddStringToObject(o, "part", pm->name);
+    cJSON_AddBoolToObject(o, "profiles", pm->profiles != NULL);
+    cJSON_AddNumberToObject(o, "width", pm->imaging.width);
+    cJSON_AddNumberToObject(o, "height", pm->imaging.height);
+    cJSON_AddNumberToObject(o, "mm_per_px", pm->imaging.mm_per_px);
+    if (pm->has_limits) {
+        cJSON *lj = cJSON_AddObjectToObject(o, "limits");
+        if (lj) {
+            cJSON_AddNumberToObject(lj, "alpha", pm->limits.alpha);
+            cJSON_AddNumberToObject(lj, "t2", pm->limits.t2_limit);
+            cJSON_AddNumberToObject(lj, "residual", pm->limits.spe_limit);
+            cJSON_AddNumberToObject(lj, "size_lo_px", pm->limits.size_lo);
+            cJSON_AddNumberToObject(lj, "size_hi_px", pm->limits.size_hi);
+            cJSON_AddNumberToObject(lj, "loo_rejects", pm->limits.loo_rejects);
+            cJSON_AddNumberToObject(lj, "n_train", pm->limits.n_train);
+        }
+    }
     char *s = cJSON_PrintUnformatted(o);
     cJSON_Delete(o);
     if (!s)
@@ -109,16 +169,17 @@ int mb_cmd_model_info(int argc, char **argv)
     }
     if (npos != 1)
         return mb_cli_usage_error("model-info", "give exactly one MODEL file");
-    mb_shape_model *m = NULL;
-    if (mb_model_load(pos[0], &m, err) < 0)
+    mb_part_model pm;
+    if (mb_part_model_load(pos[0], &pm, err) < 0)
         return mb_cli_fail("model-info", err);
     int rc = MB_EXIT_OK;
     if (json) {
-        if (print_json(pos[0], m) < 0)
+        if (print_json(pos[0], &pm) < 0)
             rc = mb_cli_fail("model-info", "out of memory");
     } else {
-        print_text(pos[0], m);
+        print_text(pos[0], pm.shape);
+        print_part(&pm);
     }
-    mb_shape_model_close(m);
+    mb_part_model_free(&pm);
     return rc;
 }

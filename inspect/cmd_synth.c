@@ -19,8 +19,10 @@
 #include <sys/stat.h>
 
 static const char *const synth_help =
-    "usage: modeband synth --family NAME --out DIR [--count N] [--defect-rate F]\n"
-    "                      [--defects LIST] [--lighting back|front] [--seed S]\n"
+    "usage: modeband synth --family NAME --out DIR [--count N] [--defect-rate "
+    "F]\n"
+    "                      [--defects LIST] [--lighting back|front] [--seed "
+    "S]\n"
     "                      [--size WxH] [--mm-per-px F] [--noise SIGMA]\n"
     "                      [--blur SIGMA] [--illumination F] [--variation F]\n"
     "                      [--start I] [--format pgm|png]\n"
@@ -31,7 +33,8 @@ static const char *const synth_help =
     "\n"
     "  --family NAME      ring (RG-4030 flat ring gasket), flange (FG-3426\n"
     "                     flange gasket, four bolt holes), hose (HS-0642 bent\n"
-    "                     hose segment) or lipseal (LS-2218 lip seal profile);\n"
+    "                     hose segment) or lipseal (LS-2218 lip seal "
+    "profile);\n"
     "                     invented demo parts\n"
     "  --out DIR          folder to write into (created if missing)\n"
     "  --count N          frames to write (default 20)\n"
@@ -39,7 +42,8 @@ static const char *const synth_help =
     "  --defects LIST     comma-separated defect types to draw from: nick,\n"
     "                     flash, tear, missing, deform, size, variant,\n"
     "                     contamination, empty, cut (default: all but cut)\n"
-    "  --lighting L       back (dark part on a bright field, default) or front\n"
+    "  --lighting L       back (dark part on a bright field, default) or "
+    "front\n"
     "                     (grey part on a textured belt)\n"
     "  --seed S           random seed, 0..2^64-1 (default 1)\n"
     "  --size WxH         frame size in px (default 1280x1024)\n"
@@ -85,15 +89,15 @@ static int parse_defects(const char *list, unsigned *mask, char *err)
         size_t n = comma ? (size_t)(comma - p) : strlen(p);
         char name[32];
         if (n == 0 || n >= sizeof name)
-            return mb_err_set(err, -1, "--defects: empty or overlong name in '%s'",
-                              list);
+            return mb_err_set(
+                err, -1, "--defects: empty or overlong name in '%s'", list);
         memcpy(name, p, n);
         name[n] = '\0';
         int t = mb_synth_defect_from_name(name);
         if (t <= MB_SYNTH_NONE)
-            return mb_err_set(err, -1,
-                              "--defects: unknown defect type '%s' (see --help)",
-                              name);
+            return mb_err_set(
+                err, -1, "--defects: unknown defect type '%s' (see --help)",
+                name);
         *mask |= 1u << t;
         p += n + (comma ? 1 : 0);
     }
@@ -153,7 +157,8 @@ int mb_cmd_synth(int argc, char **argv)
     int fam = mb_synth_family_from_name(family);
     if (fam < 0) {
         snprintf(err, sizeof err,
-                 "--family: unknown family '%.60s'; expected ring, flange, hose or lipseal",
+                 "--family: unknown family '%.60s'; expected ring, flange, "
+                 "hose or lipseal",
                  family);
         return mb_cli_usage_error("synth", err);
     }
@@ -171,9 +176,11 @@ int mb_cmd_synth(int argc, char **argv)
     if (count < 1 || count > 1000000)
         return mb_cli_usage_error("synth", "--count expects 1..1000000");
     if (start < 0)
-        return mb_cli_usage_error("synth", "--start expects a whole number >= 0");
+        return mb_cli_usage_error("synth",
+                                  "--start expects a whole number >= 0");
     if (size && parse_size(size, &cfg.width, &cfg.height) < 0) {
-        snprintf(err, sizeof err, "--size expects WIDTHxHEIGHT in px, got '%.40s'", size);
+        snprintf(err, sizeof err,
+                 "--size expects WIDTHxHEIGHT in px, got '%.40s'", size);
         return mb_cli_usage_error("synth", err);
     }
     if (seed_s) {
@@ -181,7 +188,8 @@ int mb_cmd_synth(int argc, char **argv)
         errno = 0;
         unsigned long long s = strtoull(seed_s, &end, 10);
         if (errno || end == seed_s || *end || seed_s[0] == '-') {
-            snprintf(err, sizeof err, "--seed expects a whole number 0..2^64-1, got '%.40s'",
+            snprintf(err, sizeof err,
+                     "--seed expects a whole number 0..2^64-1, got '%.40s'",
                      seed_s);
             return mb_cli_usage_error("synth", err);
         }
@@ -249,9 +257,11 @@ int mb_cmd_synth(int argc, char **argv)
         mb_cli_fail("synth", err);
         goto done;
     }
-    printf("wrote %d %s frame%s (%s, %dx%d px, %g mm/px, %s-lit) and labels.jsonl to %s\n",
+    printf("wrote %d %s frame%s (%s, %dx%d px, %g mm/px, %s-lit) and "
+           "labels.jsonl to %s\n",
            count, family, count == 1 ? "" : "s", mb_synth_part_number(fam),
-           cfg.width, cfg.height, cfg.mm_per_px, mb_synth_lighting_name(light), out);
+           cfg.width, cfg.height, cfg.mm_per_px, mb_synth_lighting_name(light),
+           out);
     printf("good: %d", per_type[MB_SYNTH_NONE]);
     for (int t = 1; t < MB_SYNTH_N_DEFECTS; t++)
         if (per_type[t])

@@ -16,6 +16,7 @@ typedef struct {
 static const mb_command commands[] = {
     {"teach", mb_cmd_teach, "build a part model from good samples"},
     {"model-info", mb_cmd_model_info, "print the summary of a model file"},
+    {"inspect", mb_cmd_inspect, "judge images against a taught model"},
     {"synth", mb_cmd_synth, "write frames of the synthetic production line"},
 };
 

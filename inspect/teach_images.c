@@ -234,7 +234,7 @@ static int model_round(const found_part *fp, int n, int *use,
                 rc = mb_err_set(err, MB_ENOMEM, "out of memory");
                 goto done;
             }
-        } else {
+        } else if (info.parts[j].column >= 0 && info.parts[j].column < m) {
             cf[info.parts[j].column] = idx[j];
         }
     }

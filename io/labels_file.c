@@ -91,7 +91,8 @@ static cJSON *record(const char *image, const mb_synth_truth *t)
     cJSON_AddNumberToObject(o, "width", t->width);
     cJSON_AddNumberToObject(o, "height", t->height);
     cJSON_AddNumberToObject(o, "mm_per_px", t->mm_per_px);
-    cJSON_AddStringToObject(o, "lighting", mb_synth_lighting_name((int)t->lighting));
+    cJSON_AddStringToObject(o, "lighting",
+                            mb_synth_lighting_name((int)t->lighting));
     cJSON_AddNumberToObject(o, "noise", t->noise_sigma);
     cJSON_AddNumberToObject(o, "blur", t->blur_sigma);
     cJSON *grey = cJSON_AddObjectToObject(o, "grey");
@@ -106,7 +107,8 @@ static cJSON *record(const char *image, const mb_synth_truth *t)
     if (pose) {
         cJSON_AddNumberToObject(pose, "x", r4(t->pose.tx));
         cJSON_AddNumberToObject(pose, "y", r4(t->pose.ty));
-        cJSON_AddNumberToObject(pose, "angle_deg", round(t->pose.angle * DEG * 1e6) / 1e6);
+        cJSON_AddNumberToObject(pose, "angle_deg",
+                                round(t->pose.angle * DEG * 1e6) / 1e6);
         cJSON_AddNumberToObject(pose, "size", round(t->size * 1e7) / 1e7);
     }
     const mb_synth_defect *d = &t->defect;
@@ -114,10 +116,13 @@ static cJSON *record(const char *image, const mb_synth_truth *t)
     if (def) {
         cJSON_AddStringToObject(def, "type", mb_synth_defect_name(d->type));
         cJSON_AddNumberToObject(def, "size_mm", round(d->size_mm * 1e5) / 1e5);
-        cJSON_AddNumberToObject(def, "extent_mm", round(d->extent_mm * 1e5) / 1e5);
+        cJSON_AddNumberToObject(def, "extent_mm",
+                                round(d->extent_mm * 1e5) / 1e5);
         cJSON_AddNumberToObject(def, "outline", d->outline);
-        cJSON_AddNumberToObject(def, "arc", d->arc < 0 ? -1 : round(d->arc * 1e6) / 1e6);
-        cJSON_AddNumberToObject(def, "angle_deg", round(d->angle * DEG * 1e4) / 1e4);
+        cJSON_AddNumberToObject(def, "arc",
+                                d->arc < 0 ? -1 : round(d->arc * 1e6) / 1e6);
+        cJSON_AddNumberToObject(def, "angle_deg",
+                                round(d->angle * DEG * 1e4) / 1e4);
         cJSON_AddNumberToObject(def, "x", r4(d->x));
         cJSON_AddNumberToObject(def, "y", r4(d->y));
     }
@@ -140,7 +145,8 @@ int mb_labels_write(mb_labels_writer *w, const char *image,
     if (!w || !image || !t)
         return mb_err_set(err, MB_EINVAL, "labels: nothing to write");
     if (strlen(image) >= MB_LABEL_NAME_LEN)
-        return mb_err_set(err, MB_EINVAL, "%s: image name '%.40s...' is longer than %d bytes",
+        return mb_err_set(err, MB_EINVAL,
+                          "%s: image name '%.40s...' is longer than %d bytes",
                           w->path, image, MB_LABEL_NAME_LEN - 1);
     if (t->outlines.n_outlines > 0 && !t->outlines.xy)
         return mb_err_set(err, MB_EINVAL, "%s: truth without outline points",
@@ -230,8 +236,8 @@ static int get_bool(const cJSON *obj, const char *name, const char *key,
 }
 
 static int enum_field(const cJSON *obj, const char *name, const char *parent,
-                      const char *key, int (*from_name)(const char *),
-                      int *out, char *err)
+                      const char *key, int (*from_name)(const char *), int *out,
+                      char *err)
 {
     const char *s;
     int rc = get_string(obj, name, parent, key, &s, err);
@@ -253,12 +259,14 @@ static int read_outlines(mb_labels_reader *r, const cJSON *root,
                          const char *name, mb_synth_truth *t, char *err)
 {
     const cJSON *outs;
-    int rc = mb_json_member(root, name, "", "outlines", MB_JSON_ARRAY, &outs, err);
+    int rc =
+        mb_json_member(root, name, "", "outlines", MB_JSON_ARRAY, &outs, err);
     if (rc < 0)
         return rc;
     int no = cJSON_GetArraySize(outs);
     if (no > MB_MAX_OUTLINES)
-        return mb_err_set(err, MB_EFORMAT, "%s: outlines: %d outlines, at most %d expected",
+        return mb_err_set(err, MB_EFORMAT,
+                          "%s: outlines: %d outlines, at most %d expected",
                           name, no, MB_MAX_OUTLINES);
     size_t total = 0;
     const cJSON *ol;
@@ -277,13 +285,14 @@ static int read_outlines(mb_labels_reader *r, const cJSON *root,
         char field[MB_JSON_FIELD_LEN];
         snprintf(field, sizeof field, "outlines[%d]", k);
         if (!cJSON_IsArray(ol))
-            return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an array of points",
-                              name, field);
+            return mb_err_set(err, MB_EFORMAT,
+                              "%s: %s: expected an array of points", name,
+                              field);
         int n = cJSON_GetArraySize(ol);
         if (n < 3 || n > MB_MAX_OUTLINE_POINTS)
             return mb_err_set(err, MB_EFORMAT,
-                              "%s: %s: %d points, expected 3..%d", name, field, n,
-                              MB_MAX_OUTLINE_POINTS);
+                              "%s: %s: %d points, expected 3..%d", name, field,
+                              n, MB_MAX_OUTLINE_POINTS);
         int i = 0;
         const cJSON *pt;
         cJSON_ArrayForEach(pt, ol)
@@ -308,19 +317,23 @@ static int parse_record(mb_labels_reader *r, const cJSON *root,
                         const char *name, mb_label *out, char *err)
 {
     mb_synth_truth *t = &out->truth;
-    int rc = mb_json_check_header(root, name, MB_LABELS_FORMAT, MB_LABELS_VERSION, err);
+    int rc = mb_json_check_header(root, name, MB_LABELS_FORMAT,
+                                  MB_LABELS_VERSION, err);
     if (rc < 0)
         return rc;
     const char *s;
     if ((rc = get_string(root, name, "", "image", &s, err)) < 0)
         return rc;
     if (strlen(s) >= MB_LABEL_NAME_LEN)
-        return mb_err_set(err, MB_EFORMAT, "%s: image: name longer than %d bytes",
-                          name, MB_LABEL_NAME_LEN - 1);
+        return mb_err_set(err, MB_EFORMAT,
+                          "%s: image: name longer than %d bytes", name,
+                          MB_LABEL_NAME_LEN - 1);
     snprintf(out->image, sizeof out->image, "%s", s);
     int fam, light, dtype;
-    if ((rc = enum_field(root, name, "", "family", mb_synth_family_from_name, &fam, err)) < 0 ||
-        (rc = enum_field(root, name, "", "lighting", mb_synth_lighting_from_name, &light, err)) < 0)
+    if ((rc = enum_field(root, name, "", "family", mb_synth_family_from_name,
+                         &fam, err)) < 0 ||
+        (rc = enum_field(root, name, "", "lighting",
+                         mb_synth_lighting_from_name, &light, err)) < 0)
         return rc;
     t->family = (mb_synth_family)fam;
     t->part_number = mb_synth_part_number(fam);
@@ -331,51 +344,76 @@ static int parse_record(mb_labels_reader *r, const cJSON *root,
     errno = 0;
     unsigned long long seed = strtoull(s, &end, 10);
     if (errno || end == s || *end || s[0] == '-')
-        return mb_err_set(err, MB_EFORMAT, "%s: seed: expected a decimal string, found \"%.40s\"",
-                          name, s);
+        return mb_err_set(
+            err, MB_EFORMAT,
+            "%s: seed: expected a decimal string, found \"%.40s\"", name, s);
     t->seed = seed;
     double v;
     if ((rc = mb_json_member_number(root, name, "", "index", &v, err)) < 0)
         return rc;
     if (v < 0 || v != floor(v) || v > 9007199254740992.0)
-        return mb_err_set(err, MB_EFORMAT, "%s: index: expected a whole number >= 0", name);
+        return mb_err_set(err, MB_EFORMAT,
+                          "%s: index: expected a whole number >= 0", name);
     t->index = (uint64_t)v;
-    if ((rc = mb_json_member_int(root, name, "", "shot", 0, 1 << 30, &t->shot, err)) < 0 ||
-        (rc = mb_json_member_int(root, name, "", "width", 1, 1 << 16, &t->width, err)) < 0 ||
-        (rc = mb_json_member_int(root, name, "", "height", 1, 1 << 16, &t->height, err)) < 0 ||
-        (rc = mb_json_member_number(root, name, "", "mm_per_px", &t->mm_per_px, err)) < 0 ||
-        (rc = mb_json_member_number(root, name, "", "noise", &t->noise_sigma, err)) < 0 ||
-        (rc = mb_json_member_number(root, name, "", "blur", &t->blur_sigma, err)) < 0)
+    if ((rc = mb_json_member_int(root, name, "", "shot", 0, 1 << 30, &t->shot,
+                                 err)) < 0 ||
+        (rc = mb_json_member_int(root, name, "", "width", 1, 1 << 16, &t->width,
+                                 err)) < 0 ||
+        (rc = mb_json_member_int(root, name, "", "height", 1, 1 << 16,
+                                 &t->height, err)) < 0 ||
+        (rc = mb_json_member_number(root, name, "", "mm_per_px", &t->mm_per_px,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(root, name, "", "noise", &t->noise_sigma,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(root, name, "", "blur", &t->blur_sigma,
+                                    err)) < 0)
         return rc;
     if (!(t->mm_per_px > 0))
-        return mb_err_set(err, MB_EFORMAT, "%s: mm_per_px: expected a number > 0", name);
+        return mb_err_set(err, MB_EFORMAT,
+                          "%s: mm_per_px: expected a number > 0", name);
     const cJSON *grey, *pose, *def;
-    if ((rc = mb_json_member(root, name, "", "grey", MB_JSON_OBJECT, &grey, err)) < 0 ||
-        (rc = mb_json_member_number(grey, name, "grey", "part", &t->grey_part, err)) < 0 ||
-        (rc = mb_json_member_number(grey, name, "grey", "background", &t->grey_background, err)) < 0)
+    if ((rc = mb_json_member(root, name, "", "grey", MB_JSON_OBJECT, &grey,
+                             err)) < 0 ||
+        (rc = mb_json_member_number(grey, name, "grey", "part", &t->grey_part,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(grey, name, "grey", "background",
+                                    &t->grey_background, err)) < 0)
         return rc;
     if ((rc = get_bool(root, name, "present", &t->present, err)) < 0 ||
         (rc = get_bool(root, name, "in_view", &t->in_view, err)) < 0 ||
         (rc = get_bool(root, name, "good", &t->good, err)) < 0)
         return rc;
     double ang;
-    if ((rc = mb_json_member(root, name, "", "pose", MB_JSON_OBJECT, &pose, err)) < 0 ||
-        (rc = mb_json_member_number(pose, name, "pose", "x", &t->pose.tx, err)) < 0 ||
-        (rc = mb_json_member_number(pose, name, "pose", "y", &t->pose.ty, err)) < 0 ||
-        (rc = mb_json_member_number(pose, name, "pose", "angle_deg", &ang, err)) < 0 ||
-        (rc = mb_json_member_number(pose, name, "pose", "size", &t->size, err)) < 0)
+    if ((rc = mb_json_member(root, name, "", "pose", MB_JSON_OBJECT, &pose,
+                             err)) < 0 ||
+        (rc = mb_json_member_number(pose, name, "pose", "x", &t->pose.tx,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(pose, name, "pose", "y", &t->pose.ty,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(pose, name, "pose", "angle_deg", &ang,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(pose, name, "pose", "size", &t->size,
+                                    err)) < 0)
         return rc;
     t->pose.angle = ang / DEG;
     t->pose.scale = 1.0 / t->mm_per_px;
     mb_synth_defect *d = &t->defect;
-    if ((rc = mb_json_member(root, name, "", "defect", MB_JSON_OBJECT, &def, err)) < 0 ||
-        (rc = enum_field(def, name, "defect", "type", mb_synth_defect_from_name, &dtype, err)) < 0 ||
-        (rc = mb_json_member_number(def, name, "defect", "size_mm", &d->size_mm, err)) < 0 ||
-        (rc = mb_json_member_number(def, name, "defect", "extent_mm", &d->extent_mm, err)) < 0 ||
-        (rc = mb_json_member_int(def, name, "defect", "outline", -1, MB_MAX_OUTLINES - 1, &d->outline, err)) < 0 ||
-        (rc = mb_json_member_number(def, name, "defect", "arc", &d->arc, err)) < 0 ||
-        (rc = mb_json_member_number(def, name, "defect", "angle_deg", &ang, err)) < 0 ||
-        (rc = mb_json_member_number(def, name, "defect", "x", &d->x, err)) < 0 ||
+    if ((rc = mb_json_member(root, name, "", "defect", MB_JSON_OBJECT, &def,
+                             err)) < 0 ||
+        (rc = enum_field(def, name, "defect", "type", mb_synth_defect_from_name,
+                         &dtype, err)) < 0 ||
+        (rc = mb_json_member_number(def, name, "defect", "size_mm", &d->size_mm,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(def, name, "defect", "extent_mm",
+                                    &d->extent_mm, err)) < 0 ||
+        (rc = mb_json_member_int(def, name, "defect", "outline", -1,
+                                 MB_MAX_OUTLINES - 1, &d->outline, err)) < 0 ||
+        (rc = mb_json_member_number(def, name, "defect", "arc", &d->arc, err)) <
+            0 ||
+        (rc = mb_json_member_number(def, name, "defect", "angle_deg", &ang,
+                                    err)) < 0 ||
+        (rc = mb_json_member_number(def, name, "defect", "x", &d->x, err)) <
+            0 ||
         (rc = mb_json_member_number(def, name, "defect", "y", &d->y, err)) < 0)
         return rc;
     d->type = dtype;
@@ -393,14 +431,16 @@ int mb_labels_read(mb_labels_reader *r, mb_label *out, char *err)
         ssize_t n = getline(&r->line, &r->line_cap, r->f);
         if (n < 0) {
             if (ferror(r->f))
-                return mb_err_set(err, MB_EIO, "%s: read failed after line %d: %s",
-                                  r->path, r->line_no, strerror(errno));
+                return mb_err_set(err, MB_EIO,
+                                  "%s: read failed after line %d: %s", r->path,
+                                  r->line_no, strerror(errno));
             return 0;
         }
         r->line_no++;
         size_t len = (size_t)n;
-        while (len > 0 && (r->line[len - 1] == '\n' || r->line[len - 1] == '\r' ||
-                           r->line[len - 1] == ' ' || r->line[len - 1] == '\t'))
+        while (len > 0 &&
+               (r->line[len - 1] == '\n' || r->line[len - 1] == '\r' ||
+                r->line[len - 1] == ' ' || r->line[len - 1] == '\t'))
             len--;
         size_t start = 0;
         while (start < len && (r->line[start] == ' ' || r->line[start] == '\t'))
@@ -415,8 +455,8 @@ int mb_labels_read(mb_labels_reader *r, mb_label *out, char *err)
             return rc;
         if (!cJSON_IsObject(root)) {
             cJSON_Delete(root);
-            return mb_err_set(err, MB_EFORMAT, "%s: expected one JSON object per line",
-                              name);
+            return mb_err_set(err, MB_EFORMAT,
+                              "%s: expected one JSON object per line", name);
         }
         rc = parse_record(r, root, name, out, err);
         cJSON_Delete(root);

@@ -35,7 +35,8 @@ static int inside(const double *xy, int n, double x, double y)
     for (int i = 0, j = n - 1; i < n; j = i++) {
         double yi = xy[2 * i + 1], yj = xy[2 * j + 1];
         if ((yi > y) != (yj > y)) {
-            double xc = xy[2 * j] + (y - yj) * (xy[2 * i] - xy[2 * j]) / (yi - yj);
+            double xc =
+                xy[2 * j] + (y - yj) * (xy[2 * i] - xy[2 * j]) / (yi - yj);
             if (x < xc)
                 in = !in;
         }
@@ -61,7 +62,8 @@ static double sampled(const double *xy, int n, int x, int y, int s)
     int hits = 0;
     for (int j = 0; j < s; j++)
         for (int i = 0; i < s; i++)
-            hits += inside(xy, n, x - 0.5 + (i + 0.5) / s, y - 0.5 + (j + 0.5) / s);
+            hits +=
+                inside(xy, n, x - 0.5 + (i + 0.5) / s, y - 0.5 + (j + 0.5) / s);
     return (double)hits / (s * s);
 }
 
@@ -84,12 +86,14 @@ static void test_coverage_vs_sampling(void **state)
         mb_coverage_resolve(&c);
         for (int y = 0; y < H; y++)
             for (int x = 0; x < W; x++) {
-                double d = fabs(cells[y * c.stride + x] - sampled(xy, n, x, y, 64));
+                double d =
+                    fabs(cells[y * c.stride + x] - sampled(xy, n, x, y, 64));
                 if (d > worst)
                     worst = d;
             }
     }
-    printf("coverage vs 64x64 point sampling: worst pixel difference %.4f\n", worst);
+    printf("coverage vs 64x64 point sampling: worst pixel difference %.4f\n",
+           worst);
     assert_true(worst < 0.02);
 }
 
@@ -133,7 +137,8 @@ static void test_window_clipping(void **state)
             double a = cells2[y * small.stride + x];
             double b = cells[(y + 12) * big.stride + x + 17];
             if (fabs(a - b) > 1e-5)
-                fail_msg("pixel (%d, %d): window %.6f, full %.6f", x + 17, y + 12, a, b);
+                fail_msg("pixel (%d, %d): window %.6f, full %.6f", x + 17,
+                         y + 12, a, b);
         }
 }
 
@@ -187,9 +192,10 @@ static void test_hole(void **state)
     for (int y = 0; y < H; y++)
         for (int x = 0; x < W; x++)
             sum += cells[y * c.stride + x];
-    double want = fabs(mb_polygon_area(xy, n)) - fabs(mb_polygon_area(xy + 2 * n, n));
+    double want =
+        fabs(mb_polygon_area(xy, n)) - fabs(mb_polygon_area(xy + 2 * n, n));
     assert_true(fabs(sum - want) < 1e-3);
-    assert_true(cells[20 * c.stride + 24] < 1e-6);      /* centre: empty */
+    assert_true(cells[20 * c.stride + 24] < 1e-6);       /* centre: empty */
     assert_true(cells[20 * c.stride + 24 + 11] > 0.999); /* in the band */
 }
 
@@ -236,7 +242,8 @@ static void test_blur(void **state)
         }
     assert_true(fabs(sum - 1) < 1e-5);
     if (fabs(vx - sigma * sigma) > 0.01 * sigma * sigma)
-        fail_msg("blurred point variance %.4f, sigma^2 %.4f", vx, sigma * sigma);
+        fail_msg("blurred point variance %.4f, sigma^2 %.4f", vx,
+                 sigma * sigma);
 }
 
 int main(void)

@@ -116,7 +116,7 @@ static double dist_polyline(const double *b, int nb, double px, double py)
 }
 
 /* Largest distance of a's points from b's polylines, outline by outline;
-   *wx, *wy get the point. */
+ *wx, *wy get the point. */
 static double max_dev(const outlines *a, const outlines *b, double *wx,
                       double *wy)
 {
@@ -124,7 +124,8 @@ static double max_dev(const outlines *a, const outlines *b, double *wx,
     for (int k = 0; k < a->n_outlines && k < b->n_outlines; k++) {
         const double *pa = outline_at(a, k), *pb = outline_at(b, k);
         for (int i = 0; i < a->counts[k]; i++) {
-            double d = dist_polyline(pb, b->counts[k], pa[2 * i], pa[2 * i + 1]);
+            double d =
+                dist_polyline(pb, b->counts[k], pa[2 * i], pa[2 * i + 1]);
             if (d > worst) {
                 worst = d;
                 *wx = pa[2 * i];
@@ -191,7 +192,8 @@ static void test_bad_config(void **state)
     assert_int_equal(mb_image_alloc(FW - 1, FH, &small), 0);
     assert_int_equal(mb_image_alloc(FW, FH, &frame), 0);
     assert_int_equal(mb_synth_make(g, 0, 0, 0, &small, NULL), MB_ESIZE);
-    assert_int_equal(mb_synth_make(g, 0, 0, MB_SYNTH_N_DEFECTS, &frame, NULL), MB_EINVAL);
+    assert_int_equal(mb_synth_make(g, 0, 0, MB_SYNTH_N_DEFECTS, &frame, NULL),
+                     MB_EINVAL);
     assert_int_equal(mb_synth_make(g, 0, -1, 0, &frame, NULL), MB_EINVAL);
     assert_int_equal(mb_synth_make(g, 0, 0, 0, &frame, NULL), 0);
     mb_image_free(&small);
@@ -225,7 +227,8 @@ static void test_determinism(void **state)
 {
     (void)state;
     for (int f = 0; f < MB_SYNTH_N_FAMILIES; f++) {
-        mb_synth *a = open_gen(f, NULL, rate_half), *b = open_gen(f, NULL, rate_half);
+        mb_synth *a = open_gen(f, NULL, rate_half),
+                 *b = open_gen(f, NULL, rate_half);
         mb_synth *c = open_gen(f, NULL, other_seed);
         mb_image fa, fb, fc;
         assert_int_equal(mb_image_alloc(FW, FH, &fa), 0);
@@ -235,8 +238,10 @@ static void test_determinism(void **state)
         assert_int_equal(mb_synth_make(b, 9, 0, MB_SYNTH_DRAW, &fb, &tb), 0);
         for (int i = 0; i < 6; i++) {
             assert_int_equal(mb_synth_next(a, &fa, &ta), 0);
-            assert_int_equal(mb_synth_make(b, (uint64_t)i, 0, MB_SYNTH_DRAW, &fb, &tb), 0);
-            assert_int_equal(mb_synth_make(c, (uint64_t)i, 0, MB_SYNTH_DRAW, &fc, &tc), 0);
+            assert_int_equal(
+                mb_synth_make(b, (uint64_t)i, 0, MB_SYNTH_DRAW, &fb, &tb), 0);
+            assert_int_equal(
+                mb_synth_make(c, (uint64_t)i, 0, MB_SYNTH_DRAW, &fc, &tc), 0);
             assert_true(frames_equal(&fa, &fb));
             assert_false(frames_equal(&fa, &fc));
             assert_int_equal(ta.defect.type, tb.defect.type);
@@ -246,7 +251,8 @@ static void test_determinism(void **state)
                 assert_int_equal(ta.outlines.counts[k], tb.outlines.counts[k]);
                 n += ta.outlines.counts[k];
             }
-            assert_memory_equal(ta.outlines.xy, tb.outlines.xy, sizeof(double) * 2 * (size_t)n);
+            assert_memory_equal(ta.outlines.xy, tb.outlines.xy,
+                                sizeof(double) * 2 * (size_t)n);
             assert_memory_equal(&ta.pose, &tb.pose, sizeof ta.pose);
             assert_memory_equal(&ta.defect, &tb.defect, sizeof ta.defect);
         }
@@ -291,8 +297,7 @@ static void test_determinism(void **state)
  * level slightly, hence the looser bound there).
  */
 static void check_truth_vs_image(mb_synth_family f, mb_synth_lighting light,
-                                 double blur, double *area_err,
-                                 double *mid_err)
+                                 double blur, double *area_err, double *mid_err)
 {
     mb_synth_config c;
     mb_synth_config_default(&c, f);
@@ -310,8 +315,10 @@ static void check_truth_vs_image(mb_synth_family f, mb_synth_lighting light,
     *area_err = *mid_err = 0;
     for (int i = 0; i < 6; i++) {
         mb_synth_truth t;
-        assert_int_equal(mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_EMPTY, &bg, NULL), 0);
-        assert_int_equal(mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_NONE, &im, &t), 0);
+        assert_int_equal(
+            mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_EMPTY, &bg, NULL), 0);
+        assert_int_equal(
+            mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_NONE, &im, &t), 0);
         double P = t.grey_part, sum = 0;
         for (int y = 0; y < FH; y++)
             for (int x = 0; x < FW; x++) {
@@ -345,10 +352,11 @@ static void test_truth_vs_image(void **state)
             for (int b = 0; b < 2; b++) {
                 double ae, me;
                 check_truth_vs_image(f, light, b ? 1.0 : 0.0, &ae, &me);
-                printf("%-8s %s-lit blur %d: coverage sum vs truth area %.5f %%, "
-                       "mean coverage on the truth outline 0.5 %+.4f\n",
-                       mb_synth_family_name(f), mb_synth_lighting_name(light), b,
-                       100 * ae, me);
+                printf(
+                    "%-8s %s-lit blur %d: coverage sum vs truth area %.5f %%, "
+                    "mean coverage on the truth outline 0.5 %+.4f\n",
+                    mb_synth_family_name(f), mb_synth_lighting_name(light), b,
+                    100 * ae, me);
                 /* 0.05 %: 8-bit rounding of the edge pixels (a shift of
                    the whole outline by 0.05 px changes the area by more) */
                 assert_true(ae < 5e-4);
@@ -368,7 +376,8 @@ static void test_all_types(void **state)
         for (int d = 0; d < MB_SYNTH_N_DEFECTS; d++)
             for (int i = 0; i < 4; i++) {
                 mb_synth_truth t;
-                int rc = mb_synth_make(g, (uint64_t)(100 + 7 * i), 0, d, &im, &t);
+                int rc =
+                    mb_synth_make(g, (uint64_t)(100 + 7 * i), 0, d, &im, &t);
                 if (rc < 0)
                     fail_msg("%s %s part %d: %s", mb_synth_family_name(f),
                              mb_synth_defect_name(d), i, mb_strerror(rc));
@@ -420,10 +429,10 @@ static void test_all_types(void **state)
 static void test_defect_sizes(void **state)
 {
     (void)state;
-    static const int types[] = {MB_SYNTH_NICK, MB_SYNTH_FLASH, MB_SYNTH_TEAR,
-                                MB_SYNTH_MISSING, MB_SYNTH_DEFORM,
-                                MB_SYNTH_WRONG_SIZE, MB_SYNTH_WRONG_VARIANT,
-                                MB_SYNTH_CONTAMINATION};
+    static const int types[] = {MB_SYNTH_NICK,          MB_SYNTH_FLASH,
+                                MB_SYNTH_TEAR,          MB_SYNTH_MISSING,
+                                MB_SYNTH_DEFORM,        MB_SYNTH_WRONG_SIZE,
+                                MB_SYNTH_WRONG_VARIANT, MB_SYNTH_CONTAMINATION};
     mb_image im;
     assert_int_equal(mb_image_alloc(FW, FH, &im), 0);
     double worst_local = 0;
@@ -434,19 +443,21 @@ static void test_defect_sizes(void **state)
                 int d = types[ti];
                 uint64_t index = (uint64_t)(20 + i);
                 mb_synth_truth t;
-                assert_int_equal(mb_synth_make(g, index, 0, MB_SYNTH_NONE, &im, &t), 0);
+                assert_int_equal(
+                    mb_synth_make(g, index, 0, MB_SYNTH_NONE, &im, &t), 0);
                 outlines good, bad;
                 copy_outlines(&t, &good, 1);
                 assert_int_equal(mb_synth_make(g, index, 0, d, &im, &t), 0);
                 copy_outlines(&t, &bad, 1);
                 double wx = 0, wy = 0, dev = max_dev(&bad, &good, &wx, &wy);
                 double size = t.defect.size_mm;
-                const char *fn = mb_synth_family_name(f), *dn = mb_synth_defect_name(d);
+                const char *fn = mb_synth_family_name(f),
+                           *dn = mb_synth_defect_name(d);
                 if (d <= MB_SYNTH_MISSING) {
                     worst_local = fmax(worst_local, fabs(dev - size));
                     if (fabs(dev - size) > 0.01 + 0.01 * size)
-                        fail_msg("%s %s: recorded %.4f mm, geometry %.4f mm", fn, dn,
-                                 size, dev);
+                        fail_msg("%s %s: recorded %.4f mm, geometry %.4f mm",
+                                 fn, dn, size, dev);
                     /* located on the good outline, near the deviation */
                     double c = cos(t.pose.angle), s = sin(t.pose.angle);
                     double dx = (t.defect.x - t.pose.tx) / t.pose.scale;
@@ -454,26 +465,31 @@ static void test_defect_sizes(void **state)
                     double lx = c * dx + s * dy, ly = -s * dx + c * dy;
                     int k = t.defect.outline;
                     assert_true(k >= 0 && k < good.n_outlines);
-                    assert_true(dist_polyline(outline_at(&good, k), good.counts[k], lx, ly) < 0.01);
-                    assert_true(hypot(wx - lx, wy - ly) < 0.5 * t.defect.extent_mm + size + 0.05);
+                    assert_true(dist_polyline(outline_at(&good, k),
+                                              good.counts[k], lx, ly) < 0.01);
+                    assert_true(hypot(wx - lx, wy - ly) <
+                                0.5 * t.defect.extent_mm + size + 0.05);
                     /* into the material or out of it */
                     double da = total_area(&bad) - total_area(&good);
                     assert_true(d == MB_SYNTH_FLASH ? da > 0 : da < 0);
                 } else if (d == MB_SYNTH_DEFORM) {
                     if (!(size > 0.1 && size <= dev + 0.01))
-                        fail_msg("%s deform: recorded %.4f mm, %.4f mm from this part", fn,
-                                 size, dev);
+                        fail_msg("%s deform: recorded %.4f mm, %.4f mm from "
+                                 "this part",
+                                 fn, size, dev);
                 } else if (d == MB_SYNTH_WRONG_SIZE) {
                     double r = sqrt(total_area(&bad) / total_area(&good));
                     double want = fabs(r - 1) * main_mm[f];
                     if (fabs(want - size) > 0.01 * size + 0.005)
-                        fail_msg("%s size: recorded %.4f mm, from the area %.4f mm", fn,
-                                 size, want);
+                        fail_msg(
+                            "%s size: recorded %.4f mm, from the area %.4f mm",
+                            fn, size, want);
                 } else if (d == MB_SYNTH_WRONG_VARIANT) {
                     if (bad.n_outlines == good.n_outlines) {
                         if (fabs(dev - size) > 0.01 + 0.01 * size)
-                            fail_msg("%s variant: recorded %.4f mm, geometry %.4f mm", fn,
-                                     size, dev);
+                            fail_msg("%s variant: recorded %.4f mm, geometry "
+                                     "%.4f mm",
+                                     fn, size, dev);
                     } else { /* a bolt hole missing: where recorded, its size */
                         assert_int_equal(bad.n_outlines + 1, good.n_outlines);
                         double c = cos(t.pose.angle), s = sin(t.pose.angle);
@@ -488,8 +504,12 @@ static void test_defect_sizes(void **state)
                                 hx += h[2 * p] / good.counts[k];
                                 hy += h[2 * p + 1] / good.counts[k];
                             }
-                            double diam = 2 * sqrt(fabs(mb_polygon_area(h, good.counts[k])) / M_PI);
-                            if (hypot(hx - lx, hy - ly) < 0.01 && fabs(diam - size) < 0.005)
+                            double diam =
+                                2 *
+                                sqrt(fabs(mb_polygon_area(h, good.counts[k])) /
+                                     M_PI);
+                            if (hypot(hx - lx, hy - ly) < 0.01 &&
+                                fabs(diam - size) < 0.005)
                                 hit++;
                         }
                         assert_int_equal(hit, 1);
@@ -503,7 +523,8 @@ static void test_defect_sizes(void **state)
             }
         mb_synth_close(g);
     }
-    printf("local defects: recorded size vs geometry, worst %.5f mm\n", worst_local);
+    printf("local defects: recorded size vs geometry, worst %.5f mm\n",
+           worst_local);
     mb_image_free(&im);
 }
 
@@ -518,7 +539,9 @@ static void test_contamination_visible(void **state)
         mb_synth *g = open_gen(f, NULL, clean);
         for (int i = 0; i < 4; i++) {
             mb_synth_truth t;
-            assert_int_equal(mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_CONTAMINATION, &im, &t), 0);
+            assert_int_equal(mb_synth_make(g, (uint64_t)i, 0,
+                                           MB_SYNTH_CONTAMINATION, &im, &t),
+                             0);
             double sum = 0, B = t.grey_background, P = t.grey_part;
             for (int y = 0; y < FH; y++)
                 for (int x = 0; x < FW; x++)
@@ -575,14 +598,16 @@ static void test_line(void **state)
             assert_true(x >= m && x <= FW - 1 - m && y >= m && y <= FH - 1 - m);
         }
         if (i % 10 == 0) {
-            assert_int_equal(mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_EMPTY, &bg, NULL), 0);
+            assert_int_equal(
+                mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_EMPTY, &bg, NULL), 0);
             for (int x = 0; x < FW; x++) {
                 assert_int_equal(im.pixels[x], bg.pixels[x]);
                 assert_int_equal(im.pixels[(FH - 1) * im.stride + x],
                                  bg.pixels[(FH - 1) * bg.stride + x]);
             }
             for (int y = 0; y < FH; y++) {
-                assert_int_equal(im.pixels[y * im.stride], bg.pixels[y * bg.stride]);
+                assert_int_equal(im.pixels[y * im.stride],
+                                 bg.pixels[y * bg.stride]);
                 assert_int_equal(im.pixels[y * im.stride + FW - 1],
                                  bg.pixels[y * bg.stride + FW - 1]);
             }
@@ -627,11 +652,13 @@ static void test_empty_and_noise(void **state)
             ss += v * v;
         }
     double mean = s / (FW * FH), sd = sqrt(ss / (FW * FH) - mean * mean);
-    printf("empty frame: mean offset %.4f, noise sd %.4f (asked %.1f; rounding adds "
+    printf("empty frame: mean offset %.4f, noise sd %.4f (asked %.1f; rounding "
+           "adds "
            "1/12 in variance)\n",
            mean, sd, c.noise_sigma);
     assert_true(fabs(mean) < 0.02);
-    assert_true(fabs(sd - sqrt(c.noise_sigma * c.noise_sigma + 1.0 / 12)) < 0.03);
+    assert_true(fabs(sd - sqrt(c.noise_sigma * c.noise_sigma + 1.0 / 12)) <
+                0.03);
     mb_synth_close(g);
 
     g = open_gen(MB_SYNTH_RING, &c, clean);
@@ -648,12 +675,14 @@ static void test_empty_and_noise(void **state)
     int cx[4] = {2, FW - 7, 2, FW - 7}, cy[4] = {2, 2, FH - 7, FH - 7};
     for (int dy = 0; dy < 5; dy++)
         for (int dx = 0; dx < 5; dx++) {
-            centre += im.pixels[(FH / 2 - 2 + dy) * im.stride + FW / 2 - 2 + dx];
+            centre +=
+                im.pixels[(FH / 2 - 2 + dy) * im.stride + FW / 2 - 2 + dx];
             for (int k = 0; k < 4; k++)
                 corners += im.pixels[(cy[k] + dy) * im.stride + cx[k] + dx];
         }
     double dark = 1 - (corners / 4) / centre;
-    printf("uneven illumination: corners %.3f darker than the centre (asked %.2f)\n",
+    printf("uneven illumination: corners %.3f darker than the centre (asked "
+           "%.2f)\n",
            dark, c.illumination);
     assert_true(fabs(dark - c.illumination) < 0.02);
     mb_image_free(&im);
@@ -694,13 +723,15 @@ static void test_variation(void **state)
     int n = 150;
     for (int i = 0; i < n; i++) {
         mb_synth_truth t;
-        assert_int_equal(mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_NONE, &im, &t), 0);
+        assert_int_equal(
+            mb_synth_make(g, (uint64_t)i, 0, MB_SYNTH_NONE, &im, &t), 0);
         assert_true(fabs(t.size - 1) <= 3 * 0.004 + 1e-12);
         s += t.size;
         ss += t.size * t.size;
     }
     double sd = sqrt(ss / n - (s / n) * (s / n));
-    printf("ring size factor: sd %.5f over %d parts (0.004 asked; a normal truncated "
+    printf("ring size factor: sd %.5f over %d parts (0.004 asked; a normal "
+           "truncated "
            "at 3 sd has 0.986 of it)\n",
            sd, n);
     assert_true(sd > 0.0033 && sd < 0.0047);

@@ -370,18 +370,19 @@ static mb_polyline_set *sets_of(test_part *tp, int m)
 
 /* ---- checks ---------------------------------------------------------- */
 
-/* The u of the point of c nearest to (x, y): a table of K samples, a
-   search in a window around *hint (all when *hint < 0), then projection on
-   the two chords next to the nearest sample. */
+/* The parameter of the point of a curve nearest to (x, y): a table of K
+   samples, searched within `window` samples of `centre` (everywhere when
+   centre < 0), then projection on the two chords next to the nearest
+   sample, whose index goes to *hint. */
 static double curve_project(const double *tab, int K, double x, double y,
-                            int *hint, int window)
+                            int centre, int window, int *hint)
 {
     int best = 0;
     double bd = HUGE_VAL;
     int lo = 0, hi = K - 1;
-    if (*hint >= 0) {
-        lo = *hint - window;
-        hi = *hint + window;
+    if (centre >= 0) {
+        lo = centre - window;
+        hi = centre + window;
     }
     for (int i = lo; i <= hi; i++) {
         int k = ((i % K) + K) % K;
@@ -484,12 +485,24 @@ static void material_check(const test_part *tp, const mb_layout *lay,
             for (int i = 0; i < K; i++)
                 (by_piece ? curve_eval_piece : curve_eval)(
                     &t->truth[g], (double)i / K, &tab[2 * i], &tab[2 * i + 1]);
-            int hint = -1;
+            /* Landmark 0 everywhere; then around the place the last step
+               predicts (steps change by up to 7x between pieces). */
+            int hint = -1, prev = -1;
             for (int i = 0; i < lay->counts[k]; i++) {
                 double p[2];
+                int centre = -1, window = 0;
+                if (i == 1) {
+                    centre = hint;
+                    window = 8 * K / lay->counts[k] + 8;
+                } else if (i > 1) {
+                    int step = ((hint - prev) % K + K + K / 2) % K - K / 2;
+                    centre = hint + step;
+                    window = 7 * abs(step) + 16;
+                }
+                prev = hint;
                 mb_pose_apply(&inv, x + 2 * (fst + i), 1, p);
-                u[(size_t)ip->column * n + fst + i] = curve_project(
-                    tab, K, p[0], p[1], &hint, 8 * K / lay->counts[k] + 8);
+                u[(size_t)ip->column * n + fst + i] =
+                    curve_project(tab, K, p[0], p[1], centre, window, &hint);
             }
             fst += lay->counts[k];
         }
@@ -667,18 +680,110 @@ static double seconds_now(void)
     return ts.tv_sec + 1e-9 * ts.tv_nsec;
 }
 
-/* Run the solver on m generated parts; prints nothing. */
-static int run(test_part *tp, int m, const mb_correspond_params *p,
-               mb_layout *lay, double **shapes, mb_correspond_info *info,
-               char *err, double *secs)
+static double cpu_seconds_now(void)
 {
-    mb_polyline_set *sets = sets_of(tp, m);
-    double t0 = seconds_now();
-    int rc = mb_correspond_run(sets, m, p, lay, shapes, info, err);
-    if (secs)
-        *secs = seconds_now() - t0;
+    struct timespec ts;
+    clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &ts);
+    return ts.tv_sec + 1e-9 * ts.tv_nsec;
+}
+
+/* One generated training set and what the solver made of it. */
+typedef void (*part_maker)(test_part *tp, rng *r, int j);
+
+typedef struct {
+    int m;
+    test_part *tp;
+    mb_layout lay;
+    double *shapes;
+    mb_correspond_info info;
+    double secs[2]; /* wall clock, CPU */
+    char err[MB_ERR_LEN];
+} corr_case;
+
+static void case_make(corr_case *c, int m, uint64_t seed, part_maker make)
+{
+    memset(c, 0, sizeof *c);
+    c->m = m;
+    c->tp = calloc((size_t)m, sizeof *c->tp);
+    assert_non_null(c->tp);
+    rng r = {seed};
+    for (int j = 0; j < m; j++)
+        make(&c->tp[j], &r, j);
+}
+
+/* Run the solver (p may be NULL); prints nothing. */
+static int case_run(corr_case *c, const mb_correspond_params *p)
+{
+    free(c->shapes);
+    mb_correspond_info_free(&c->info);
+    mb_polyline_set *sets = sets_of(c->tp, c->m);
+    double t0 = seconds_now(), c0 = cpu_seconds_now();
+    c->err[0] = '\0';
+    int rc =
+        mb_correspond_run(sets, c->m, p, &c->lay, &c->shapes, &c->info, c->err);
+    c->secs[0] = seconds_now() - t0;
+    c->secs[1] = cpu_seconds_now() - c0;
     free(sets);
+    if (rc != 0 && rc != MB_ESIZE)
+        fprintf(stderr, "correspondence: %s\n", c->err);
     return rc;
+}
+
+static void case_free(corr_case *c)
+{
+    free(c->shapes);
+    mb_correspond_info_free(&c->info);
+    for (int j = 0; j < c->m; j++)
+        part_free(&c->tp[j]);
+    free(c->tp);
+    memset(c, 0, sizeof *c);
+}
+
+static void flange_good(test_part *tp, rng *r, int j)
+{
+    (void)j;
+    make_flange(tp, r, 3, 0.0, 0.03);
+}
+
+static void flange_noisy(test_part *tp, rng *r, int j)
+{
+    (void)j;
+    make_flange(tp, r, 3, 0.0, 0.15);
+}
+
+/* Part 5 lacks a bolt hole; part 7 has one moved by 25 px. */
+static void flange_missing5(test_part *tp, rng *r, int j)
+{
+    make_flange(tp, r, j == 5 ? 2 : 3, 0.0, 0.03);
+}
+
+static void flange_moved7(test_part *tp, rng *r, int j)
+{
+    make_flange(tp, r, 3, j == 7 ? 25.0 : 0.0, 0.03);
+}
+
+static void round_flange(test_part *tp, rng *r, int j)
+{
+    (void)j;
+    make_round_flange(tp, r);
+}
+
+static void ring_oval(test_part *tp, rng *r, int j)
+{
+    (void)j;
+    make_ring(tp, r, 0.02, 0.004);
+}
+
+static void ring_round(test_part *tp, rng *r, int j)
+{
+    (void)j;
+    make_ring(tp, r, 0.0, 0.001);
+}
+
+static void hose(test_part *tp, rng *r, int j)
+{
+    (void)j;
+    make_hose(tp, r);
 }
 
 /* ---- tests ----------------------------------------------------------- */
@@ -758,42 +863,30 @@ static void print_match(const char *name, const match_figures *f)
 static void test_flange(void **state)
 {
     (void)state;
-    enum { M = 100 };
-    test_part *tp = calloc(M, sizeof *tp);
-    assert_non_null(tp);
-    rng r = {2024};
-    for (int j = 0; j < M; j++)
-        make_flange(&tp[j], &r, 3, 0.0, 0.03);
-    mb_correspond_params p;
-    mb_correspond_params_default(&p);
-    mb_layout lay;
-    double *shapes = NULL, secs = 0.0;
-    mb_correspond_info info;
-    char err[MB_ERR_LEN] = "";
-    int rc = run(tp, M, &p, &lay, &shapes, &info, err, &secs);
-    if (rc)
-        fprintf(stderr, "%s\n", err);
-    assert_int_equal(rc, 0);
-    printf("flange: %d parts corresponded in %.3f s (%d iterations, "
-           "converged %d, last change %.2g spacings); layout",
-           M, secs, info.iterations, info.converged, info.last_change);
-    for (int k = 0; k < lay.n_outlines; k++)
-        printf(" %d", lay.counts[k]);
+    corr_case c;
+    case_make(&c, 100, 2024, flange_good);
+    assert_int_equal(case_run(&c, NULL), 0);
+    printf("flange: %d parts corresponded in %.3f s (%.3f s of CPU; %d "
+           "iterations, converged %d, last change %.2g spacings); layout",
+           c.m, c.secs[0], c.secs[1], c.info.iterations, c.info.converged,
+           c.info.last_change);
+    for (int k = 0; k < c.lay.n_outlines; k++)
+        printf(" %d", c.lay.counts[k]);
     printf("\n");
-    assert_int_equal(info.n_used, M);
-    assert_int_equal(info.converged, 1);
+    assert_int_equal(c.info.n_used, c.m);
+    assert_int_equal(c.info.converged, 1);
     /* Layout: 5 outlines, the budget exactly, bolt holes at the minimum,
        the outer edge (about 2/3 of the length) with the most. */
-    assert_int_equal(lay.n_outlines, 5);
-    assert_int_equal(lay.n_points, 256);
-    assert_int_equal(mb_layout_check(&lay), 0);
-    assert_true(lay.counts[0] > 140 && lay.counts[0] < 180);
-    assert_true(lay.counts[1] > 35 && lay.counts[1] < 65);
+    assert_int_equal(c.lay.n_outlines, 5);
+    assert_int_equal(c.lay.n_points, 256);
+    assert_int_equal(mb_layout_check(&c.lay), 0);
+    assert_true(c.lay.counts[0] > 140 && c.lay.counts[0] < 180);
+    assert_true(c.lay.counts[1] > 35 && c.lay.counts[1] < 65);
     for (int k = 2; k < 5; k++)
-        assert_int_equal(lay.counts[k], 16);
+        assert_int_equal(c.lay.counts[k], 16);
 
     match_figures f;
-    material_check(tp, &lay, shapes, &info, 0, &f);
+    material_check(c.tp, &c.lay, c.shapes, &c.info, 0, &f);
     print_match("flange", &f);
     assert_true(f.holes_consistent);
     assert_true(f.reversed_ok);
@@ -806,14 +899,14 @@ static void test_flange(void **state)
        their angles) arc-length resampling itself slides a little where
        width and height change; printed, loosely bounded. */
     match_figures fm;
-    material_check(tp, &lay, shapes, &info, 1, &fm);
+    material_check(c.tp, &c.lay, c.shapes, &c.info, 1, &fm);
     print_match("flange, material points", &fm);
     assert_true(fm.point_rms < 0.5);
 
     model_figures mf, naive;
-    model_check(shapes, M, &lay, &mf);
-    double *X = naive_shapes(tp, M, &lay);
-    model_check(X, M, &lay, &naive);
+    model_check(c.shapes, c.m, &c.lay, &mf);
+    double *X = naive_shapes(c.tp, c.m, &c.lay);
+    model_check(X, c.m, &c.lay, &naive);
     printf("flange: modes for 98 %%: %d (3 generating parameters), total "
            "variance %.3g; naive fixed-start resampling: %d modes, total "
            "variance %.3g (x%.0f)\n",
@@ -822,11 +915,7 @@ static void test_flange(void **state)
     assert_true(mf.modes98 <= 4);
     assert_true(naive.total_var > 20.0 * mf.total_var);
     free(X);
-    free(shapes);
-    mb_correspond_info_free(&info);
-    for (int j = 0; j < M; j++)
-        part_free(&tp[j]);
-    free(tp);
+    case_free(&c);
 }
 
 /* Noisier outlines (0.15 px per point, 0.8 px apart) lengthen the polyline
@@ -835,12 +924,8 @@ static void test_flange(void **state)
 static void test_flange_noisy(void **state)
 {
     (void)state;
-    enum { M = 40 };
-    test_part *tp = calloc(M, sizeof *tp);
-    assert_non_null(tp);
-    rng r = {606};
-    for (int j = 0; j < M; j++)
-        make_flange(&tp[j], &r, 3, 0.0, 0.15);
+    corr_case c;
+    case_make(&c, 40, 606, flange_noisy);
     mb_correspond_params p;
     mb_correspond_params_default(&p);
     match_figures f[2];
@@ -848,17 +933,11 @@ static void test_flange_noisy(void **state)
     for (int q = 0; q < 2; q++) {
         if (q == 1)
             p.arc_smoothing = 0.0;
-        mb_layout lay;
-        double *shapes = NULL;
-        mb_correspond_info info;
-        char err[MB_ERR_LEN] = "";
-        assert_int_equal(run(tp, M, &p, &lay, &shapes, &info, err, NULL), 0);
-        assert_int_equal(info.converged, 1);
-        material_check(tp, &lay, shapes, &info, 0, &f[q]);
+        assert_int_equal(case_run(&c, &p), 0);
+        assert_int_equal(c.info.converged, 1);
+        material_check(c.tp, &c.lay, c.shapes, &c.info, 0, &f[q]);
         assert_true(f[q].holes_consistent);
-        model_check(shapes, M, &lay, &mf[q]);
-        free(shapes);
-        mb_correspond_info_free(&info);
+        model_check(c.shapes, c.m, &c.lay, &mf[q]);
     }
     print_match("noisy flange", &f[0]);
     print_match("noisy flange, plain arc length", &f[1]);
@@ -868,110 +947,81 @@ static void test_flange_noisy(void **state)
     assert_true(f[0].point_rms_px < 0.15);
     assert_true(mf[0].modes98 <= 4);
     assert_true(f[1].point_rms_px > 2.0 * f[0].point_rms_px);
-    for (int j = 0; j < M; j++)
-        part_free(&tp[j]);
-    free(tp);
+    case_free(&c);
 }
 
 static void test_round_flange(void **state)
 {
     (void)state;
-    enum { M = 40 };
-    test_part tp[M];
-    rng r = {777};
-    for (int j = 0; j < M; j++)
-        make_round_flange(&tp[j], &r);
-    mb_layout lay;
-    double *shapes = NULL;
-    mb_correspond_info info;
-    char err[MB_ERR_LEN] = "";
-    assert_int_equal(run(tp, M, NULL, &lay, &shapes, &info, err, NULL), 0);
+    corr_case c;
+    case_make(&c, 40, 777, round_flange);
+    assert_int_equal(case_run(&c, NULL), 0);
     match_figures f;
-    material_check(tp, &lay, shapes, &info, 0, &f);
+    material_check(c.tp, &c.lay, c.shapes, &c.info, 0, &f);
     print_match("round flange (rotation fixed by the holes only)", &f);
     assert_true(f.holes_consistent);
     assert_true(f.reversed_ok);
     assert_true(f.start_rms < 0.05);
     assert_true(f.point_rms < 0.1);
     model_figures mf;
-    model_check(shapes, M, &lay, &mf);
+    model_check(c.shapes, c.m, &c.lay, &mf);
     printf("round flange: modes for 98 %%: %d (2 generating parameters)\n",
            mf.modes98);
     assert_true(mf.modes98 <= 3);
-    free(shapes);
-    mb_correspond_info_free(&info);
-    for (int j = 0; j < M; j++)
-        part_free(&tp[j]);
+    case_free(&c);
 }
 
-static void ring_case(const char *name, double e_mean, double e_sd,
-                      uint64_t seed)
+static void ring_case(const char *name, part_maker make, uint64_t seed)
 {
-    enum { M = 60 };
-    test_part tp[M];
-    rng r = {seed};
-    for (int j = 0; j < M; j++)
-        make_ring(&tp[j], &r, e_mean, e_sd);
-    mb_layout lay;
-    double *shapes = NULL;
-    mb_correspond_info info;
-    char err[MB_ERR_LEN] = "";
-    assert_int_equal(run(tp, M, NULL, &lay, &shapes, &info, err, NULL), 0);
+    corr_case c;
+    case_make(&c, 60, seed, make);
+    assert_int_equal(case_run(&c, NULL), 0);
     model_figures mf, naive;
-    model_check(shapes, M, &lay, &mf);
-    double *X = naive_shapes(tp, M, &lay);
-    model_check(X, M, &lay, &naive);
+    model_check(c.shapes, c.m, &c.lay, &mf);
+    double *X = naive_shapes(c.tp, c.m, &c.lay);
+    model_check(X, c.m, &c.lay, &naive);
     printf("%s: %d iterations (converged %d); modes for 98 %%: %d; mode 1 "
            "explains %.0f %%, its displacement is %.1f %% tangential; "
            "6 modes weighted: %.1f %% tangential; total variance %.3g\n",
-           name, info.iterations, info.converged, mf.modes98,
+           name, c.info.iterations, c.info.converged, mf.modes98,
            100 * mf.first_share, 100 * mf.tan_first, 100 * mf.tan_weighted,
            mf.total_var);
     printf("%s: naive fixed-start resampling: %d modes, mode 1 %.1f %% "
            "tangential, total variance %.3g (x%.0f)\n",
            name, naive.modes98, 100 * naive.tan_first, naive.total_var,
            naive.total_var / mf.total_var);
+    /* Generating parameters: ovality and thickness. */
     assert_true(mf.modes98 <= 3);
     assert_true(mf.tan_first < 0.2);
     assert_true(mf.tan_weighted < 0.2);
     assert_true(naive.tan_first > 0.5);
     assert_true(naive.total_var > 10.0 * mf.total_var);
     free(X);
-    free(shapes);
-    mb_correspond_info_free(&info);
-    for (int j = 0; j < M; j++)
-        part_free(&tp[j]);
+    case_free(&c);
 }
 
 static void test_ring_oval(void **state)
 {
     (void)state;
-    ring_case("ring, ovality 2 %", 0.02, 0.004, 99);
+    ring_case("ring, ovality 2 %", ring_oval, 99);
 }
 
 static void test_ring_round(void **state)
 {
     (void)state;
-    ring_case("ring, nearly round", 0.0, 0.001, 100);
+    ring_case("ring, nearly round", ring_round, 100);
 }
 
 static void test_hose(void **state)
 {
     (void)state;
-    enum { M = 60 };
-    test_part tp[M];
-    rng r = {31337};
-    for (int j = 0; j < M; j++)
-        make_hose(&tp[j], &r);
-    mb_layout lay;
-    double *shapes = NULL;
-    mb_correspond_info info;
-    char err[MB_ERR_LEN] = "";
-    assert_int_equal(run(tp, M, NULL, &lay, &shapes, &info, err, NULL), 0);
-    assert_int_equal(lay.n_outlines, 1);
-    assert_int_equal(lay.n_points, 256);
+    corr_case c;
+    case_make(&c, 60, 31337, hose);
+    assert_int_equal(case_run(&c, NULL), 0);
+    assert_int_equal(c.lay.n_outlines, 1);
+    assert_int_equal(c.lay.n_points, 256);
     match_figures f;
-    material_check(tp, &lay, shapes, &info, 1, &f);
+    material_check(c.tp, &c.lay, c.shapes, &c.info, 1, &f);
     print_match("hose, material points", &f);
     assert_true(f.reversed_ok);
     assert_true(f.start_report_err < 1e-6);
@@ -980,83 +1030,58 @@ static void test_hose(void **state)
     assert_true(f.start_rms < 0.05);
     assert_true(f.point_rms < 1.0);
     model_figures mf;
-    model_check(shapes, M, &lay, &mf);
+    model_check(c.shapes, c.m, &c.lay, &mf);
     printf("hose: modes for 98 %%: %d (2 generating parameters), mode 1 "
            "%.1f %% tangential\n",
            mf.modes98, 100 * mf.tan_first);
     assert_true(mf.modes98 <= 3);
-    free(shapes);
-    mb_correspond_info_free(&info);
-    for (int j = 0; j < M; j++)
-        part_free(&tp[j]);
+    case_free(&c);
 }
 
 static void test_refuse_missing_hole(void **state)
 {
     (void)state;
-    enum { M = 12, BAD = 5 };
-    test_part tp[M];
-    rng r = {4242};
-    for (int j = 0; j < M; j++)
-        make_flange(&tp[j], &r, j == BAD ? 2 : 3, 0.0, 0.03);
+    corr_case c;
+    case_make(&c, 12, 4242, flange_missing5);
     mb_correspond_params p;
     mb_correspond_params_default(&p);
-    mb_layout lay;
-    double *shapes = NULL;
-    mb_correspond_info info;
-    char err[MB_ERR_LEN] = "";
-    assert_int_equal(run(tp, M, &p, &lay, &shapes, &info, err, NULL), 0);
-    printf("missing hole: %s\n", info.parts[BAD].reason);
-    assert_int_equal(info.n_used, M - 1);
-    assert_int_equal(info.parts[BAD].status, MB_ESIZE);
-    assert_int_equal(info.parts[BAD].column, -1);
-    assert_non_null(strstr(info.parts[BAD].reason, "part 5"));
-    for (int j = 0; j < M; j++)
-        if (j != BAD)
-            assert_int_equal(info.parts[j].status, 0);
+    assert_int_equal(case_run(&c, &p), 0);
+    printf("missing hole: %s\n", c.info.parts[5].reason);
+    assert_int_equal(c.info.n_used, c.m - 1);
+    assert_int_equal(c.info.parts[5].status, MB_ESIZE);
+    assert_int_equal(c.info.parts[5].column, -1);
+    assert_non_null(strstr(c.info.parts[5].reason, "part 5"));
+    for (int j = 0; j < c.m; j++)
+        if (j != 5)
+            assert_int_equal(c.info.parts[j].status, 0);
     match_figures f;
-    material_check(tp, &lay, shapes, &info, 0, &f);
+    material_check(c.tp, &c.lay, c.shapes, &c.info, 0, &f);
     assert_true(f.holes_consistent);
     assert_true(f.start_rms < 0.05);
-    free(shapes);
-    mb_correspond_info_free(&info);
 
     p.skip_bad = 0;
-    err[0] = '\0';
-    assert_int_equal(run(tp, M, &p, &lay, &shapes, &info, err, NULL), MB_ESIZE);
-    assert_null(shapes);
-    assert_non_null(strstr(err, "part 5"));
-    assert_int_equal(info.parts[BAD].status, MB_ESIZE);
-    mb_correspond_info_free(&info);
-    for (int j = 0; j < M; j++)
-        part_free(&tp[j]);
+    assert_int_equal(case_run(&c, &p), MB_ESIZE);
+    assert_null(c.shapes);
+    assert_non_null(strstr(c.err, "part 5"));
+    assert_int_equal(c.info.parts[5].status, MB_ESIZE);
+    case_free(&c);
 }
 
 static void test_refuse_moved_hole(void **state)
 {
     (void)state;
-    enum { M = 12, BAD = 7 };
-    test_part tp[M];
-    rng r = {5151};
-    for (int j = 0; j < M; j++)
-        make_flange(&tp[j], &r, 3, j == BAD ? 25.0 : 0.0, 0.03);
-    mb_layout lay;
-    double *shapes = NULL;
-    mb_correspond_info info;
-    char err[MB_ERR_LEN] = "";
-    assert_int_equal(run(tp, M, NULL, &lay, &shapes, &info, err, NULL), 0);
-    printf("moved hole: %s\n", info.parts[BAD].reason);
-    assert_int_equal(info.n_used, M - 1);
-    assert_int_equal(info.parts[BAD].status, MB_ERANGE);
-    assert_non_null(strstr(info.parts[BAD].reason, "part 7"));
+    corr_case c;
+    case_make(&c, 12, 5151, flange_moved7);
+    assert_int_equal(case_run(&c, NULL), 0);
+    printf("moved hole: %s\n", c.info.parts[7].reason);
+    assert_int_equal(c.info.n_used, c.m - 1);
+    assert_int_equal(c.info.parts[7].status, MB_ERANGE);
+    assert_non_null(strstr(c.info.parts[7].reason, "part 7"));
     match_figures f;
-    material_check(tp, &lay, shapes, &info, 0, &f);
+    material_check(c.tp, &c.lay, c.shapes, &c.info, 0, &f);
     assert_true(f.holes_consistent);
     assert_true(f.start_rms < 0.05);
-    free(shapes);
-    mb_correspond_info_free(&info);
-    for (int j = 0; j < M; j++)
-        part_free(&tp[j]);
+    case_free(&c);
 }
 
 static void test_bad_input(void **state)

@@ -8,7 +8,8 @@
  * values worked out by hand on a hand-made model; the fit recovers the pose
  * and b that generated a target (to 1e-8), also with weights; with every
  * mode kept, fitting a training part gives its PCA score; the bound on
- * |b_i| is respected; bad input gets the right code and a sentence.
+ * |b_i| is respected; the per-frame calls (fit, project, reconstruct, T^2,
+ * SPE) allocate nothing; bad input gets the right code and a sentence.
  */
 #include <setjmp.h>
 #include <stdarg.h>
@@ -26,6 +27,35 @@
 #include <string.h>
 
 enum { NP = TG_N_OUTER + TG_N_HOLE, D = 2 * NP, M = 40 };
+
+/* Allocation counter: the test is linked with -Wl,--wrap=malloc (and calloc,
+   realloc), so every allocation by our code passes through here; the
+   __wrap_/__real_ names are the linker's convention. */
+void *__real_malloc(size_t n);
+void *__real_calloc(size_t n, size_t size);
+void *__real_realloc(void *p, size_t n);
+void *__wrap_malloc(size_t n);
+void *__wrap_calloc(size_t n, size_t size);
+void *__wrap_realloc(void *p, size_t n);
+static int counting, allocations;
+
+void *__wrap_malloc(size_t n)
+{
+    allocations += counting;
+    return __real_malloc(n);
+}
+
+void *__wrap_calloc(size_t n, size_t size)
+{
+    allocations += counting;
+    return __real_calloc(n, size);
+}
+
+void *__wrap_realloc(void *p, size_t n)
+{
+    allocations += counting;
+    return __real_realloc(p, n);
+}
 
 static double *make_parts(int m, uint64_t seed)
 {
@@ -457,6 +487,42 @@ static void test_fit_bound(void **state)
     free(x);
 }
 
+static void test_per_frame_calls_allocate_nothing(void **state)
+{
+    (void)state;
+    double *x = make_parts(M, 9);
+    assert_non_null(x);
+    mb_shape_model *m = build(x, M, NULL);
+    double *work = malloc(sizeof(double) * mb_shape_model_fit_work_size(m));
+    double b[D], y[D], spe_work[D];
+    assert_non_null(work);
+    memset(b, 0, sizeof b);
+    mb_fit_params p;
+    mb_fit_params_default(&p);
+    p.b_limit = 3.0;
+    mb_fit_result res;
+    allocations = 0;
+    counting = 1;
+    int rc = mb_shape_model_fit(m, x + 3 * D, NULL, &p, b, &res, work);
+    mb_shape_model_reconstruct(m, b, y);
+    mb_shape_model_project(m, y, b);
+    double t2 = mb_shape_model_t2(m, b);
+    double spe = mb_shape_model_spe(m, y, spe_work);
+    counting = 0;
+    assert_int_equal(rc, 0);
+    assert_true(isfinite(t2) && isfinite(spe));
+    assert_int_equal(allocations, 0);
+    /* The counter itself works: a build allocates. */
+    counting = 1;
+    mb_shape_model *m2 = build(x, M, NULL);
+    counting = 0;
+    assert_true(allocations > 0);
+    mb_shape_model_close(m2);
+    free(work);
+    mb_shape_model_close(m);
+    free(x);
+}
+
 static void test_fit_bad_input(void **state)
 {
     (void)state;
@@ -558,6 +624,7 @@ int main(void)
         cmocka_unit_test(test_fit_fixed_point),
         cmocka_unit_test(test_fit_training_scores),
         cmocka_unit_test(test_fit_bound),
+        cmocka_unit_test(test_per_frame_calls_allocate_nothing),
         cmocka_unit_test(test_fit_bad_input),
         cmocka_unit_test(test_build_bad_input),
     };

@@ -17,7 +17,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     int rc = mb_image_parse_pgm(data, size, "fuzz.pgm", &im, err);
     if (rc == 0) {
         MB_ASSERT(im.width >= 1 && im.height >= 1);
-        MB_ASSERT(im.width <= MB_IMAGE_MAX_SIDE && im.height <= MB_IMAGE_MAX_SIDE);
+        MB_ASSERT(im.width <= MB_IMAGE_MAX_SIDE &&
+                  im.height <= MB_IMAGE_MAX_SIDE);
         MB_ASSERT(im.stride >= im.width && im.pixels != NULL);
         unsigned sum = 0;
         for (int y = 0; y < im.height; y++)

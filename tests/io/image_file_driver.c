@@ -25,7 +25,8 @@ int main(int argc, char **argv)
             return 1;
         for (int y = 0; y < im.height; y++)
             for (int x = 0; x < im.width; x++)
-                im.pixels[y * im.stride + x] = (uint8_t)(((x * 7 + y * 13) ^ (x * y)) & 255);
+                im.pixels[y * im.stride + x] =
+                    (uint8_t)(((x * 7 + y * 13) ^ (x * y)) & 255);
         snprintf(path, sizeof path, "%s/ours.pgm", argv[2]);
         if (mb_image_save_pgm(path, &im, err) < 0)
             goto fail;
@@ -52,7 +53,8 @@ int main(int argc, char **argv)
         printf("%d %d\n", im.width, im.height);
         for (int y = 0; y < im.height; y++)
             for (int x = 0; x < im.width; x++)
-                printf("%d%c", im.pixels[y * im.stride + x], x + 1 < im.width ? ' ' : '\n');
+                printf("%d%c", im.pixels[y * im.stride + x],
+                       x + 1 < im.width ? ' ' : '\n');
         mb_image_free(&im);
         return 0;
     }

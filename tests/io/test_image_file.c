@@ -78,7 +78,8 @@ static void expect_decode(const char *text, size_t len, int code,
     mb_image *im = out ? out : &tmp;
     int rc = mb_image_decode((const uint8_t *)text, len, "frame.pgm", im, err);
     if (rc != code)
-        fail_msg("expected %d (%s), got %d: %s", code, mb_strerror(code), rc, err);
+        fail_msg("expected %d (%s), got %d: %s", code, mb_strerror(code), rc,
+                 err);
     if (code < 0) {
         assert_null(im->pixels);
         if (strncmp(err, "frame.pgm: ", 11) != 0)
@@ -96,7 +97,8 @@ static void pattern(mb_image *big, mb_image *view)
     assert_int_equal(mb_image_alloc(53, 31, big), 0);
     for (int y = 0; y < big->height; y++)
         for (int x = 0; x < big->width; x++)
-            big->pixels[y * big->stride + x] = (uint8_t)((x * 7 + y * 13) ^ (x * y));
+            big->pixels[y * big->stride + x] =
+                (uint8_t)((x * 7 + y * 13) ^ (x * y));
     *view = mb_image_view(big, 5, 3, 37, 23);
 }
 
@@ -106,7 +108,8 @@ static void assert_same(const mb_image *a, const mb_image *b)
     assert_int_equal(a->height, b->height);
     for (int y = 0; y < a->height; y++)
         assert_memory_equal(a->pixels + (size_t)y * a->stride,
-                            b->pixels + (size_t)y * b->stride, (size_t)a->width);
+                            b->pixels + (size_t)y * b->stride,
+                            (size_t)a->width);
 }
 
 static void test_round_trip(void **state)
@@ -183,7 +186,8 @@ static void test_pgm_plain_and_comments(void **state)
 {
     (void)state;
     mb_image im;
-    const char *p2 = "P2\n# a plain grey map\n3 2\n# max\n255\n0 10 20\n 30\t40\r\n255\n";
+    const char *p2 =
+        "P2\n# a plain grey map\n3 2\n# max\n255\n0 10 20\n 30\t40\r\n255\n";
     expect_decode(p2, strlen(p2), 0, NULL, &im);
     const uint8_t want[6] = {0, 10, 20, 30, 40, 255};
     for (int i = 0; i < 6; i++)
@@ -200,25 +204,31 @@ static void test_pgm_bad(void **state)
 {
     (void)state;
     expect_decode("P5\n4 4\n255\n", 11, MB_EFORMAT, "truncated", NULL);
-    expect_decode("P5\n4 4\n255\nabcdefgh", 19, MB_EFORMAT, "8 bytes where 4x4", NULL);
+    expect_decode("P5\n4 4\n255\nabcdefgh", 19, MB_EFORMAT, "8 bytes where 4x4",
+                  NULL);
     expect_decode("P5\n640", 6, MB_EFORMAT, "ends inside its header", NULL);
     expect_decode("P5\n640 480", 10, MB_EFORMAT, "maximum grey value", NULL);
     expect_decode("P5\n4 4\n65535\n", 13, MB_EFORMAT, "truncated", NULL);
-    expect_decode("P2\n3 1\n255\n1 2", 14, MB_EFORMAT, "ends after 2 of 3", NULL);
+    expect_decode("P2\n3 1\n255\n1 2", 14, MB_EFORMAT, "ends after 2 of 3",
+                  NULL);
     expect_decode("P2\n3 1\n255\n1 x 2", 16, MB_EFORMAT, "sample 1", NULL);
     expect_decode("P5\nabc 10\n255\n", 14, MB_EFORMAT, "width", NULL);
     expect_decode("P5\n10 -3\n255\n", 13, MB_EFORMAT, "height", NULL);
     expect_decode("P5\n0 10\n255\n", 12, MB_EFORMAT, "at least 1x1", NULL);
-    expect_decode("P5\n1 1\n0\nA", 10, MB_EFORMAT, "maximum grey value 0", NULL);
+    expect_decode("P5\n1 1\n0\nA", 10, MB_EFORMAT, "maximum grey value 0",
+                  NULL);
     expect_decode("P5\n1 1\n70000\nAA", 15, MB_EFORMAT, "1..65535", NULL);
-    expect_decode("P5\n2 1\n100\n\x32\x65", 13, MB_EFORMAT, "above the maximum", NULL);
+    expect_decode("P5\n2 1\n100\n\x32\x65", 13, MB_EFORMAT, "above the maximum",
+                  NULL);
     expect_decode("P5x 1 1 255\nA", 13, MB_EFORMAT, "white space", NULL);
     expect_decode("P6\n1 1\n255\nabc", 14, MB_EFORMAT, "P6", NULL);
     expect_decode("GIF89a", 6, MB_EFORMAT, "unknown image format", NULL);
     expect_decode("", 0, MB_EFORMAT, "empty", NULL);
     /* huge sizes are refused before any pixel memory is asked for */
-    expect_decode("P5\n20000 20000\n255\nAAAA", 23, MB_ERANGE, "20000x20000", NULL);
-    expect_decode("P5\n16384 16385\n255\nA", 20, MB_ERANGE, "16384x16384", NULL);
+    expect_decode("P5\n20000 20000\n255\nAAAA", 23, MB_ERANGE, "20000x20000",
+                  NULL);
+    expect_decode("P5\n16384 16385\n255\nA", 20, MB_ERANGE, "16384x16384",
+                  NULL);
     expect_decode("P5\n9999999999 2\n255\nA", 20, MB_EFORMAT, "width", NULL);
     /* the largest accepted side is fine when the data is there */
     size_t n = 16 + 16384;
@@ -242,7 +252,8 @@ static void write_png_raw(const char *path, int w, int h, int depth, int type,
 {
     FILE *f = fopen(path, "wb");
     assert_non_null(f);
-    png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, NULL, NULL, NULL);
+    png_structp png =
+        png_create_write_struct(PNG_LIBPNG_VER_STRING, NULL, NULL, NULL);
     png_infop info = png_create_info_struct(png);
     assert_non_null(info);
     if (setjmp(png_jmpbuf(png)))
@@ -279,14 +290,16 @@ static void test_png_types(void **state)
     char err[MB_ERR_LEN];
     /* RGB through our own writer: Rec. 601 luma, 0.299 R + 0.587 G +
        0.114 B: red 76.2, green 149.7, blue 29.1, (200, 100, 50) 124.2 */
-    const uint8_t rgb[6 * 3] = {255, 0, 0, 0, 255, 0, 0, 0, 255,
+    const uint8_t rgb[6 * 3] = {255, 0,   0,   0,   255, 0,   0,   0,   255,
                                 255, 255, 255, 100, 100, 100, 200, 100, 50};
-    assert_int_equal(mb_image_save_png_rgb(spath("rgb.png"), 6, 1, rgb, 18, err), 0);
+    assert_int_equal(
+        mb_image_save_png_rgb(spath("rgb.png"), 6, 1, rgb, 18, err), 0);
     mb_image im = load_ok(spath("rgb.png"));
     const int want[6] = {76, 150, 29, 255, 100, 124};
     for (int i = 0; i < 6; i++)
         if (abs(im.pixels[i] - want[i]) > (i == 3 || i == 4 ? 0 : 1))
-            fail_msg("colour %d: grey %d, Rec. 601 luma %d", i, im.pixels[i], want[i]);
+            fail_msg("colour %d: grey %d, Rec. 601 luma %d", i, im.pixels[i],
+                     want[i]);
     mb_image_free(&im);
 
     /* 16-bit grey, scaled: same hand values as the PGM */
@@ -297,7 +310,8 @@ static void test_png_types(void **state)
         be[2 * i] = (uint8_t)(v16[i] >> 8);
         be[2 * i + 1] = (uint8_t)(v16[i] & 255);
     }
-    write_png_raw(spath("g16.png"), 6, 1, 16, PNG_COLOR_TYPE_GRAY, 0, be, 12, NULL, 0);
+    write_png_raw(spath("g16.png"), 6, 1, 16, PNG_COLOR_TYPE_GRAY, 0, be, 12,
+                  NULL, 0);
     im = load_ok(spath("g16.png"));
     for (int i = 0; i < 6; i++)
         assert_int_equal(im.pixels[i], want16[i]);
@@ -306,7 +320,8 @@ static void test_png_types(void **state)
     /* palette: grey entries stay, a colour entry becomes its luma */
     const png_color pal[3] = {{10, 10, 10}, {200, 200, 200}, {0, 255, 0}};
     const uint8_t idx[4] = {0, 1, 2, 1};
-    write_png_raw(spath("pal.png"), 4, 1, 8, PNG_COLOR_TYPE_PALETTE, 0, idx, 4, pal, 3);
+    write_png_raw(spath("pal.png"), 4, 1, 8, PNG_COLOR_TYPE_PALETTE, 0, idx, 4,
+                  pal, 3);
     im = load_ok(spath("pal.png"));
     assert_int_equal(im.pixels[0], 10);
     assert_int_equal(im.pixels[1], 200);
@@ -315,7 +330,8 @@ static void test_png_types(void **state)
 
     /* grey + alpha: the alpha is dropped, the grey kept */
     const uint8_t ga[6] = {30, 255, 60, 0, 90, 128};
-    write_png_raw(spath("ga.png"), 3, 1, 8, PNG_COLOR_TYPE_GRAY_ALPHA, 0, ga, 6, NULL, 0);
+    write_png_raw(spath("ga.png"), 3, 1, 8, PNG_COLOR_TYPE_GRAY_ALPHA, 0, ga, 6,
+                  NULL, 0);
     im = load_ok(spath("ga.png"));
     assert_int_equal(im.pixels[0], 30);
     assert_int_equal(im.pixels[1], 60);
@@ -324,14 +340,16 @@ static void test_png_types(void **state)
 
     /* RGBA 16-bit: both transformations at once */
     uint8_t rgba16[8] = {0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0x00, 0x00};
-    write_png_raw(spath("rgba16.png"), 1, 1, 16, PNG_COLOR_TYPE_RGB_ALPHA, 0, rgba16, 8, NULL, 0);
+    write_png_raw(spath("rgba16.png"), 1, 1, 16, PNG_COLOR_TYPE_RGB_ALPHA, 0,
+                  rgba16, 8, NULL, 0);
     im = load_ok(spath("rgba16.png"));
     assert_int_equal(im.pixels[0], 255);
     mb_image_free(&im);
 
     /* 1-bit grey: 0 and 255 */
     const uint8_t bits[1] = {0xA0}; /* 1 0 1 0 ... */
-    write_png_raw(spath("g1.png"), 4, 1, 1, PNG_COLOR_TYPE_GRAY, 0, bits, 1, NULL, 0);
+    write_png_raw(spath("g1.png"), 4, 1, 1, PNG_COLOR_TYPE_GRAY, 0, bits, 1,
+                  NULL, 0);
     im = load_ok(spath("g1.png"));
     assert_int_equal(im.pixels[0], 255);
     assert_int_equal(im.pixels[1], 0);
@@ -343,7 +361,8 @@ static void test_png_types(void **state)
     uint8_t g[40 * 30];
     for (int i = 0; i < 40 * 30; i++)
         g[i] = (uint8_t)(i * 37 + i / 40);
-    write_png_raw(spath("adam7.png"), 40, 30, 8, PNG_COLOR_TYPE_GRAY, 1, g, 40, NULL, 0);
+    write_png_raw(spath("adam7.png"), 40, 30, 8, PNG_COLOR_TYPE_GRAY, 1, g, 40,
+                  NULL, 0);
     im = load_ok(spath("adam7.png"));
     for (int y = 0; y < 30; y++)
         assert_memory_equal(im.pixels + y * im.stride, g + 40 * y, 40);
@@ -352,7 +371,8 @@ static void test_png_types(void **state)
     /* a PNG wider than the limit: refused from its header */
     uint8_t *wide = calloc(20000, 1);
     assert_non_null(wide);
-    write_png_raw(spath("wide.png"), 20000, 1, 8, PNG_COLOR_TYPE_GRAY, 0, wide, 20000, NULL, 0);
+    write_png_raw(spath("wide.png"), 20000, 1, 8, PNG_COLOR_TYPE_GRAY, 0, wide,
+                  20000, NULL, 0);
     free(wide);
     im.pixels = (uint8_t *)err;
     assert_int_equal(mb_image_load(spath("wide.png"), &im, err), MB_ERANGE);
@@ -375,7 +395,8 @@ static void test_png_truncated_and_corrupt(void **state)
         mb_image im;
         int rc = mb_image_parse_png(b, cut, "t.png", &im, err);
         if (rc != MB_EFORMAT)
-            fail_msg("PNG cut to %zu of %zu bytes: got %d (%s)", cut, len, rc, err);
+            fail_msg("PNG cut to %zu of %zu bytes: got %d (%s)", cut, len, rc,
+                     err);
         assert_null(im.pixels);
         assert_memory_equal(err, "t.png: ", 7);
     }
@@ -406,13 +427,16 @@ static void test_files(void **state)
     assert_non_null(strstr(err, "none.pgm"));
     assert_int_equal(mb_image_load(scratch, &im, err), MB_EIO); /* a folder */
     pattern(&big, &view);
-    assert_int_equal(mb_image_save_pgm(spath("no/such/dir/x.pgm"), &view, err), MB_EIO);
+    assert_int_equal(mb_image_save_pgm(spath("no/such/dir/x.pgm"), &view, err),
+                     MB_EIO);
     assert_non_null(strstr(err, "x.pgm"));
-    assert_int_equal(mb_image_save_png(spath("no/such/dir/x.png"), &view, err), MB_EIO);
+    assert_int_equal(mb_image_save_png(spath("no/such/dir/x.png"), &view, err),
+                     MB_EIO);
     assert_non_null(strstr(err, "x.png"));
     assert_int_equal(mb_image_save_pgm(spath("x.pgm"), NULL, err), MB_EINVAL);
-    assert_int_equal(mb_image_save_png_rgb(spath("x.png"), 4, 4, big.pixels, 11, err),
-                     MB_EINVAL); /* stride below 3 * width */
+    assert_int_equal(
+        mb_image_save_png_rgb(spath("x.png"), 4, 4, big.pixels, 11, err),
+        MB_EINVAL); /* stride below 3 * width */
     mb_image_free(&big);
 }
 

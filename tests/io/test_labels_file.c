@@ -68,8 +68,9 @@ static void test_round_trip(void **state)
     static double *xy[N];
     int types = 0;
     for (int i = 0; i < N; i++) {
-        assert_int_equal(mb_synth_make(g, (uint64_t)(1000 + i), i % 3, MB_SYNTH_DRAW, &im,
-                                       &truths[i]), 0);
+        assert_int_equal(mb_synth_make(g, (uint64_t)(1000 + i), i % 3,
+                                       MB_SYNTH_DRAW, &im, &truths[i]),
+                         0);
         int n = 0;
         for (int k = 0; k < truths[i].outlines.n_outlines; k++)
             n += truths[i].outlines.counts[k];
@@ -81,8 +82,8 @@ static void test_round_trip(void **state)
         snprintf(name, sizeof name, "flange_%04d.pgm", i + 1);
         assert_int_equal(mb_labels_write(w, name, &truths[i], err), 0);
     }
-    assert_true(types & 1);        /* a good part among them */
-    assert_true(types & ~1);       /* and defects */
+    assert_true(types & 1);  /* a good part among them */
+    assert_true(types & ~1); /* and defects */
     assert_int_equal(mb_labels_writer_close(w, err), 0);
 
     mb_labels_reader *r = NULL;
@@ -106,8 +107,10 @@ static void test_round_trip(void **state)
         assert_int_equal(b->height, a->height);
         assert_true(b->mm_per_px == a->mm_per_px);
         assert_int_equal(b->lighting, a->lighting);
-        assert_true(b->noise_sigma == a->noise_sigma && b->blur_sigma == a->blur_sigma);
-        assert_true(b->grey_part == a->grey_part && b->grey_background == a->grey_background);
+        assert_true(b->noise_sigma == a->noise_sigma &&
+                    b->blur_sigma == a->blur_sigma);
+        assert_true(b->grey_part == a->grey_part &&
+                    b->grey_background == a->grey_background);
         assert_int_equal(b->present, a->present);
         assert_int_equal(b->in_view, a->in_view);
         assert_int_equal(b->good, a->good);
@@ -117,11 +120,14 @@ static void test_round_trip(void **state)
         assert_true(fabs(b->pose.scale - a->pose.scale) < 1e-9);
         assert_true(fabs(b->size - a->size) < 1e-7);
         assert_int_equal(b->defect.type, a->defect.type);
-        assert_true(fabs(b->defect.size_mm - a->defect.size_mm) <= 0.5e-5 + 1e-9);
-        assert_true(fabs(b->defect.extent_mm - a->defect.extent_mm) <= 0.5e-5 + 1e-9);
+        assert_true(fabs(b->defect.size_mm - a->defect.size_mm) <=
+                    0.5e-5 + 1e-9);
+        assert_true(fabs(b->defect.extent_mm - a->defect.extent_mm) <=
+                    0.5e-5 + 1e-9);
         assert_int_equal(b->defect.outline, a->defect.outline);
         assert_true(fabs(b->defect.arc - a->defect.arc) <= 0.5e-6 + 1e-9);
-        assert_true(fabs(remainder(b->defect.angle - a->defect.angle, 2 * M_PI)) < 1e-5);
+        assert_true(fabs(remainder(b->defect.angle - a->defect.angle,
+                                   2 * M_PI)) < 1e-5);
         assert_true(fabs(b->defect.x - a->defect.x) <= 0.5e-4 + 1e-9);
         assert_true(fabs(b->defect.y - a->defect.y) <= 0.5e-4 + 1e-9);
         assert_int_equal(b->outlines.n_outlines, a->outlines.n_outlines);
@@ -132,8 +138,8 @@ static void test_round_trip(void **state)
         }
         for (int p = 0; p < 2 * n; p++)
             if (fabs(b->outlines.xy[p] - xy[i][p]) > 0.5e-4 + 1e-9)
-                fail_msg("record %d coordinate %d: %.6f read, %.6f written", i, p,
-                         b->outlines.xy[p], xy[i][p]);
+                fail_msg("record %d coordinate %d: %.6f read, %.6f written", i,
+                         p, b->outlines.xy[p], xy[i][p]);
         free(xy[i]);
     }
     mb_label l;
@@ -164,7 +170,8 @@ static char *replaced(const char *from, const char *to)
     static char buf[2048];
     const char *p = strstr(valid, from);
     assert_non_null(p);
-    snprintf(buf, sizeof buf, "%.*s%s%s", (int)(p - valid), valid, to, p + strlen(from));
+    snprintf(buf, sizeof buf, "%.*s%s%s", (int)(p - valid), valid, to,
+             p + strlen(from));
     return buf;
 }
 
@@ -183,7 +190,8 @@ static void expect_read(const char *text, int n_good, int code, const char *p1,
         assert_int_equal(mb_labels_read(r, &l, err), 1);
     int rc = mb_labels_read(r, &l, err);
     if (rc != code)
-        fail_msg("expected %d (%s), got %d: %s", code, mb_strerror(code), rc, err);
+        fail_msg("expected %d (%s), got %d: %s", code, mb_strerror(code), rc,
+                 err);
     if (!strstr(err, "bad.jsonl line "))
         fail_msg("sentence does not name the file and line: %s", err);
     if (p1 && !strstr(err, p1))
@@ -219,23 +227,32 @@ static void test_bad_lines(void **state)
     /* a torn last line, as a crash while writing leaves it */
     snprintf(text, sizeof text, "%s\n%.100s", valid, valid);
     expect_read(text, 1, MB_EFORMAT, "line 2", NULL);
-    expect_read(replaced("\"version\":1", "\"version\":2"), 0, MB_EVERSION, "2", NULL);
-    expect_read(replaced("\"family\":\"ring\"", "\"family\":\"donut\""), 0, MB_EFORMAT,
-                "family", "donut");
-    expect_read(replaced("\"pose\":", "\"posture\":"), 0, MB_EFORMAT, "pose", NULL);
-    expect_read(replaced("[15,18]", "[15,18,3]"), 0, MB_ESIZE, "outlines[0][2]", NULL);
-    expect_read(replaced(",[15,18]", ""), 0, MB_EFORMAT, "outlines[0]", "2 points");
-    expect_read(replaced("\"seed\":\"7\"", "\"seed\":\"-7\""), 0, MB_EFORMAT, "seed", NULL);
-    expect_read(replaced("\"seed\":\"7\"", "\"seed\":7"), 0, MB_EFORMAT, "seed", NULL);
-    expect_read(replaced("\"type\":\"none\"", "\"type\":\"dent\""), 0, MB_EFORMAT,
-                "defect.type", NULL);
-    expect_read(replaced("\"x\":30", "\"x\":null"), 0, MB_ENUMERIC, "pose.x", NULL);
+    expect_read(replaced("\"version\":1", "\"version\":2"), 0, MB_EVERSION, "2",
+                NULL);
+    expect_read(replaced("\"family\":\"ring\"", "\"family\":\"donut\""), 0,
+                MB_EFORMAT, "family", "donut");
+    expect_read(replaced("\"pose\":", "\"posture\":"), 0, MB_EFORMAT, "pose",
+                NULL);
+    expect_read(replaced("[15,18]", "[15,18,3]"), 0, MB_ESIZE, "outlines[0][2]",
+                NULL);
+    expect_read(replaced(",[15,18]", ""), 0, MB_EFORMAT, "outlines[0]",
+                "2 points");
+    expect_read(replaced("\"seed\":\"7\"", "\"seed\":\"-7\""), 0, MB_EFORMAT,
+                "seed", NULL);
+    expect_read(replaced("\"seed\":\"7\"", "\"seed\":7"), 0, MB_EFORMAT, "seed",
+                NULL);
+    expect_read(replaced("\"type\":\"none\"", "\"type\":\"dent\""), 0,
+                MB_EFORMAT, "defect.type", NULL);
+    expect_read(replaced("\"x\":30", "\"x\":null"), 0, MB_ENUMERIC, "pose.x",
+                NULL);
     expect_read("[1,2,3]\n", 0, MB_EFORMAT, "one JSON object", NULL);
 
-    assert_int_equal(mb_labels_reader_open(spath("none.jsonl"), &r, err), MB_ENOTFOUND);
+    assert_int_equal(mb_labels_reader_open(spath("none.jsonl"), &r, err),
+                     MB_ENOTFOUND);
     assert_non_null(strstr(err, "none.jsonl"));
     mb_labels_writer *w = NULL;
-    assert_int_equal(mb_labels_writer_open(spath("no/dir/l.jsonl"), &w, err), MB_EIO);
+    assert_int_equal(mb_labels_writer_open(spath("no/dir/l.jsonl"), &w, err),
+                     MB_EIO);
     assert_non_null(strstr(err, "l.jsonl"));
 }
 

@@ -1,0 +1,510 @@
+/*
+ * inspect/verdict.c - one frame from pixels to a verdict with reasons.
+ *
+ * The scores mirror the ones the limits were learned from (bands.c): the
+ * measured outline is aligned to the model's mean by a similarity, projected
+ * into the tangent space, and its mode values, T^2 and residual are those of
+ * that projection; local deviations are the measured-minus-model distances
+ * along the normals from the robust fit of the search (fit/asm.h), so a nick
+ * does not drag the model along.
+ */
+#include "verdict.h"
+
+#include "error.h"
+#include "gauges.h"
+#include "procrustes.h"
+#include "pyramid.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+struct mb_inspector {
+    const mb_part_model *pm;
+    mb_inspect_params p;
+    int w, h, n, d, k;
+    mb_pyramid *pyr;
+    mb_locate *loc;
+    mb_asm *search;
+    double *y, *b, *z, *work, *mm_pts;
+    double mean_cx, mean_cy;  /* centroid of the mean shape (model frame) */
+    double *mean_angle;       /* n: angle of each landmark on the part, deg */
+};
+
+static const char *const reason_names[] = {
+    [MB_REASON_NONE] = "none",        [MB_REASON_NO_PART] = "no-part",
+    [MB_REASON_OFF_EDGE] = "off-edge",[MB_REASON_TWO_PARTS] = "two-parts",
+    [MB_REASON_NO_FIT] = "no-fit",    [MB_REASON_SIZE] = "size",
+    [MB_REASON_MODE] = "mode",        [MB_REASON_SHAPE] = "shape",
+    [MB_REASON_RESIDUAL] = "residual",[MB_REASON_NICK] = "nick",
+    [MB_REASON_FLASH] = "flash",      [MB_REASON_GAP] = "gap",
+    [MB_REASON_GAUGE] = "gauge",      [MB_REASON_DEFORM] = "deform",
+    [MB_REASON_FRAME] = "frame",
+    [MB_REASON_MODEL] = "model",      [MB_REASON_INTERNAL] = "internal",
+};
+
+const char *mb_reason_name(mb_reason_code c)
+{
+    if ((int)c >= 0 && (size_t)c < sizeof reason_names / sizeof reason_names[0] &&
+        reason_names[c])
+        return reason_names[c];
+    return "unknown";
+}
+
+void mb_inspect_params_default(mb_inspect_params *p)
+{
+    memset(p, 0, sizeof *p);
+    mb_asm_params_default(&p->search);
+    mb_locate_params_default(&p->locate);
+    p->gap_run = 3;
+}
+
+void mb_inspector_close(mb_inspector *ins)
+{
+    if (!ins)
+        return;
+    mb_asm_close(ins->search);
+    mb_locate_close(ins->loc);
+    mb_pyramid_close(ins->pyr);
+    free(ins->y);
+    free(ins->b);
+    free(ins->z);
+    free(ins->work);
+    free(ins->mm_pts);
+    free(ins->mean_angle);
+    free(ins);
+}
+
+int mb_inspector_create(const mb_part_model *pm, const mb_inspect_params *p,
+                        mb_inspector **out, char *err)
+{
+    if (!pm || !out)
+        return mb_err_set(err, MB_EINVAL, "inspector: no model");
+    *out = NULL;
+    if (!pm->shape || !pm->profiles)
+        return mb_err_set(err, MB_EINVAL,
+                          "the model has no grey-level profiles (it was taught "
+                          "from point files); teach it from images to inspect");
+    if (!pm->has_limits)
+        return mb_err_set(err, MB_EINVAL, "the model has no acceptance limits");
+    if (pm->imaging.width <= 0 || pm->imaging.height <= 0)
+        return mb_err_set(err, MB_EINVAL, "the model does not say its frame size");
+    mb_inspector *ins = calloc(1, sizeof *ins);
+    if (!ins)
+        return mb_err_set(err, MB_ENOMEM, "out of memory");
+    int rc;
+    ins->pm = pm;
+    if (p)
+        ins->p = *p;
+    else
+        mb_inspect_params_default(&ins->p);
+    if (!(ins->p.mm_per_px > 0))
+        ins->p.mm_per_px = pm->imaging.mm_per_px;
+    ins->w = pm->imaging.width;
+    ins->h = pm->imaging.height;
+    ins->n = mb_shape_model_layout(pm->shape)->n_points;
+    ins->d = 2 * ins->n;
+    ins->k = mb_shape_model_n_modes(pm->shape);
+    int levels = mb_profile_model_params(pm->profiles)->levels;
+    if (ins->p.locate.level + 1 > levels)
+        levels = ins->p.locate.level + 1;
+    int maxc = 0;
+    const mb_layout *l = mb_shape_model_layout(pm->shape);
+    for (int o = 0; o < l->n_outlines; o++)
+        if (l->counts[o] > maxc)
+            maxc = l->counts[o];
+    ins->y = malloc((size_t)ins->d * sizeof *ins->y);
+    ins->b = malloc((size_t)(ins->k + 1) * sizeof *ins->b);
+    ins->z = malloc((size_t)(ins->k + 1) * sizeof *ins->z);
+    ins->work = malloc((size_t)(3 * maxc + 8) * sizeof *ins->work);
+    ins->mm_pts = malloc((size_t)ins->d * sizeof *ins->mm_pts);
+    ins->mean_angle = malloc((size_t)ins->n * sizeof *ins->mean_angle);
+    if (!ins->y || !ins->b || !ins->z || !ins->work || !ins->mm_pts ||
+        !ins->mean_angle) {
+        rc = mb_err_set(err, MB_ENOMEM, "out of memory");
+        goto fail;
+    }
+    if ((rc = mb_pyramid_create(ins->w, ins->h, levels, &ins->pyr)) < 0) {
+        mb_err_set(err, rc, "cannot make the image pyramid: %s", mb_strerror(rc));
+        goto fail;
+    }
+    if ((rc = mb_locate_create(pm->shape, pm->profiles, ins->w, ins->h,
+                               &ins->p.locate, &ins->loc, err)) < 0 ||
+        (rc = mb_asm_create(pm->shape, pm->profiles, ins->w, ins->h,
+                            &ins->p.search, &ins->search, err)) < 0)
+        goto fail;
+    const double *mean = mb_shape_model_mean(pm->shape);
+    double cx = 0, cy = 0;
+    for (int j = 0; j < ins->n; j++) {
+        cx += mean[2 * j];
+        cy += mean[2 * j + 1];
+    }
+    ins->mean_cx = cx / ins->n;
+    ins->mean_cy = cy / ins->n;
+    for (int j = 0; j < ins->n; j++) {
+        double a = atan2(mean[2 * j + 1] - ins->mean_cy, mean[2 * j] - ins->mean_cx) *
+                   180.0 / M_PI;
+        ins->mean_angle[j] = a < 0 ? a + 360.0 : a;
+    }
+    *out = ins;
+    return MB_OK;
+fail:
+    mb_inspector_close(ins);
+    return rc;
+}
+
+static double now_ms(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return 1e3 * (double)ts.tv_sec + 1e-6 * (double)ts.tv_nsec;
+}
+
+static mb_reason *add_reason(mb_verdict *v, mb_reason_code c, double value,
+                             double limit)
+{
+    if (v->n_reasons >= MB_MAX_REASONS)
+        return NULL;
+    mb_reason *r = &v->reasons[v->n_reasons++];
+    memset(r, 0, sizeof *r);
+    r->code = c;
+    r->value = value;
+    r->limit = limit;
+    return r;
+}
+
+static void outline_name(int o, char *buf, size_t len)
+{
+    if (o == 0)
+        snprintf(buf, len, "the outer edge");
+    else
+        snprintf(buf, len, "hole %d", o);
+}
+
+/* Local deviations and gaps, worst first per outline and sign. */
+static void judge_local(mb_inspector *ins, const mb_asm_result *res,
+                        mb_verdict *v)
+{
+    const mb_layout *l = mb_shape_model_layout(ins->pm->shape);
+    const double *lim = ins->pm->limits.local_limit;
+    double mm = ins->p.mm_per_px > 0 ? ins->p.mm_per_px : 1.0;
+    const char *unit = ins->p.mm_per_px > 0 ? "mm" : "px";
+    int first = 0;
+    for (int o = 0; o < l->n_outlines; o++) {
+        int c = l->counts[o];
+        double len = mb_gauge_length(res->measured_xy + 2 * first, c) * mm;
+        char oname[32];
+        outline_name(o, oname, sizeof oname);
+        /* gaps: runs of landmarks without an edge */
+        int run = 0, best_run = 0, best_end = 0;
+        for (int t = 0; t < 2 * c; t++) { /* twice round: runs across 0 */
+            int j = first + t % c;
+            run = res->valid[j] ? 0 : run + 1;
+            if (run > best_run && run <= c) {
+                best_run = run;
+                best_end = t % c;
+            }
+        }
+        if (best_run >= ins->p.gap_run) {
+            int mid = first + ((best_end - best_run / 2) % c + c) % c;
+            mb_reason *r = add_reason(v, MB_REASON_GAP, best_run * len / c, 0);
+            if (r) {
+                r->outline = o;
+                r->position = (double)(mid - first) / c;
+                r->position_mm = r->position * len;
+                r->angle_deg = ins->mean_angle[mid];
+                r->x = res->model_xy[2 * mid];
+                r->y = res->model_xy[2 * mid + 1];
+                r->extent_mm = best_run * len / c;
+                snprintf(r->text, sizeof r->text,
+                         "edge missing on %s over %.2f %s at %.0f deg (%.0f %% "
+                         "along): torn or missing material", oname,
+                         r->extent_mm, unit, r->angle_deg, 100.0 * r->position);
+            }
+        }
+        /* nicks (inward) and flash (outward): worst of each sign */
+        for (int sign = -1; sign <= 1; sign += 2) {
+            int worst = -1;
+            double wr = 1.0;
+            for (int t = 0; t < c; t++) {
+                int j = first + t;
+                if (!res->valid[j] || res->dist[j] * sign <= 0)
+                    continue;
+                double ratio = fabs(res->dist[j]) / lim[j];
+                if (ratio > wr) {
+                    wr = ratio;
+                    worst = j;
+                }
+            }
+            if (worst < 0)
+                continue;
+            int ext = 1;
+            for (int s = 1; s < c; s++) {
+                int j = first + (worst - first + s) % c;
+                if (!res->valid[j] || res->dist[j] * sign <= 0 ||
+                    fabs(res->dist[j]) <= lim[j])
+                    break;
+                ext++;
+            }
+            for (int s = 1; s < c - ext + 1; s++) {
+                int j = first + ((worst - first - s) % c + c) % c;
+                if (!res->valid[j] || res->dist[j] * sign <= 0 ||
+                    fabs(res->dist[j]) <= lim[j])
+                    break;
+                ext++;
+            }
+            /* beyond its limit over more than a sixth of the outline: the
+               outline is bent or dented, not nicked */
+            int deform = ext * 6 > c;
+            mb_reason_code code = deform ? MB_REASON_DEFORM
+                                  : sign < 0 ? MB_REASON_NICK : MB_REASON_FLASH;
+            double depth = fabs(res->dist[worst]);
+            mb_reason *r = add_reason(v, code, depth * mm, lim[worst] * mm);
+            if (!r)
+                continue;
+            r->outline = o;
+            r->position = (double)(worst - first) / c;
+            r->position_mm = r->position * len;
+            r->angle_deg = ins->mean_angle[worst];
+            r->x = res->measured_xy[2 * worst];
+            r->y = res->measured_xy[2 * worst + 1];
+            r->depth_px = depth;
+            r->depth_mm = depth * mm;
+            r->extent_mm = ext * len / c;
+            if (deform)
+                snprintf(r->text, sizeof r->text,
+                         "%s deformed: %.2f %s %s the taught shape at %.0f deg "
+                         "(%.0f %% along), beyond its limit over %.1f %s",
+                         oname, depth * mm, unit, sign < 0 ? "inside" : "outside",
+                         r->angle_deg, 100.0 * r->position, r->extent_mm, unit);
+            else
+                snprintf(r->text, sizeof r->text,
+                         "%s on %s at %.0f deg (%.0f %% along): %.2f %s %s over "
+                         "%.2f %s, limit %.2f %s",
+                         sign < 0 ? "nick (material missing)" : "flash (material added)",
+                         oname, r->angle_deg, 100.0 * r->position, depth * mm, unit,
+                         sign < 0 ? "deep" : "high", r->extent_mm, unit,
+                         lim[worst] * mm, unit);
+        }
+        first += c;
+    }
+}
+
+static void fault(mb_verdict *v, mb_reason_code c, const char *text)
+{
+    v->verdict = MB_VERDICT_FAULT;
+    mb_reason *r = add_reason(v, c, 0, 0);
+    if (r)
+        snprintf(r->text, sizeof r->text, "%s", text);
+}
+
+static void reject_presence(mb_verdict *v, mb_reason_code c, const char *text)
+{
+    v->verdict = MB_VERDICT_REJECT;
+    mb_reason *r = add_reason(v, c, 0, 0);
+    if (r)
+        snprintf(r->text, sizeof r->text, "%s", text);
+}
+
+int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
+{
+    if (!ins || !frame || !v)
+        return MB_EINVAL;
+    double t0 = now_ms();
+    const mb_part_model *pm = ins->pm;
+    const mb_limits *lim = &pm->limits;
+    memset(v, 0, sizeof *v);
+    v->layout = mb_shape_model_layout(pm->shape);
+    double mm = ins->p.mm_per_px;
+    const char *unit = mm > 0 ? "mm" : "px";
+    double u = mm > 0 ? mm : 1.0;
+    char text[200];
+
+    if (!frame->pixels || frame->width != ins->w || frame->height != ins->h) {
+        snprintf(text, sizeof text,
+                 "frame is %dx%d px but the model was taught on %dx%d px frames",
+                 frame->width, frame->height, ins->w, ins->h);
+        fault(v, MB_REASON_FRAME, text);
+        goto done;
+    }
+    if (mb_pyramid_build(ins->pyr, frame) < 0) {
+        fault(v, MB_REASON_INTERNAL, "the image pyramid could not be built");
+        goto done;
+    }
+    mb_locate_result lr;
+    int rc = mb_locate_run(ins->loc, ins->pyr, &lr);
+    if (rc == MB_ENOPART) {
+        reject_presence(v, MB_REASON_NO_PART, "no part in view");
+        goto done;
+    }
+    if (rc == MB_EEDGE) {
+        reject_presence(v, MB_REASON_OFF_EDGE,
+                        "the part is cut by the frame edge (not fully in view)");
+        goto done;
+    }
+    if (rc == MB_EMULTIPLE) {
+        snprintf(text, sizeof text, "%d parts in view; one part per frame expected",
+                 lr.n_parts);
+        reject_presence(v, MB_REASON_TWO_PARTS, text);
+        goto done;
+    }
+    if (rc < 0) {
+        snprintf(text, sizeof text, "locating the part failed: %s", mb_strerror(rc));
+        fault(v, MB_REASON_INTERNAL, text);
+        goto done;
+    }
+    mb_asm_result res;
+    rc = mb_asm_search(ins->search, ins->pyr, lr.candidates, lr.n_candidates, &res);
+    if (rc < 0) {
+        snprintf(text, sizeof text, "the model search failed: %s", mb_strerror(rc));
+        fault(v, MB_REASON_INTERNAL, text);
+        goto done;
+    }
+    v->converged = res.converged;
+    v->pose = res.pose;
+    v->angle_deg = res.pose.angle * 180.0 / M_PI;
+    v->scale = res.pose.scale;
+    v->measured = res.measured_xy;
+    v->model_xy = res.model_xy;
+    v->dist = res.dist;
+    v->valid = res.valid;
+    /* A fit that did not converge is judged all the same, so a badly
+       deformed part gets the reasons that show it; it can never pass: with
+       no failed check it is a fault (below). */
+
+    /* scores of the measured outline, as in the teaching (bands.c) */
+    const mb_shape_model *sm = pm->shape;
+    const double *mean = mb_shape_model_mean(sm);
+    const double *modes = mb_shape_model_modes(sm);
+    const double *eig = mb_shape_model_eig(sm);
+    int n = ins->n, d = ins->d, k = ins->k;
+    mb_pose al;
+    if (mb_procrustes_fit(res.measured_xy, mean, n, NULL, &al, NULL) < 0) {
+        fault(v, MB_REASON_INTERNAL, "the measured outline is degenerate");
+        goto done;
+    }
+    mb_pose_apply(&al, res.measured_xy, n, ins->y);
+    double ym = 0, mm2 = 0;
+    for (int c = 0; c < d; c++) {
+        ym += ins->y[c] * mean[c];
+        mm2 += mean[c] * mean[c];
+    }
+    double ts = ym > 0 ? mm2 / ym : 1.0;
+    for (int c = 0; c < d; c++)
+        ins->y[c] = ins->y[c] * ts - mean[c];
+    double t2 = 0;
+    for (int q = 0; q < k; q++) {
+        const double *uq = modes + (size_t)q * d;
+        double b = 0;
+        for (int c = 0; c < d; c++)
+            b += uq[c] * ins->y[c];
+        for (int c = 0; c < d; c++)
+            ins->y[c] -= b * uq[c];
+        ins->b[q] = b;
+        ins->z[q] = b / sqrt(eig[q]);
+        t2 += ins->z[q] * ins->z[q];
+    }
+    double spe = 0;
+    for (int c = 0; c < d; c++)
+        spe += ins->y[c] * ins->y[c];
+    v->n_modes = k;
+    v->b_sd = ins->z;
+    v->t2 = t2;
+    v->spe = spe;
+    double cx = 0, cy = 0, r2 = 0;
+    for (int j = 0; j < n; j++) {
+        cx += res.measured_xy[2 * j];
+        cy += res.measured_xy[2 * j + 1];
+    }
+    cx /= n;
+    cy /= n;
+    for (int j = 0; j < n; j++)
+        r2 += (res.measured_xy[2 * j] - cx) * (res.measured_xy[2 * j] - cx) +
+              (res.measured_xy[2 * j + 1] - cy) * (res.measured_xy[2 * j + 1] - cy);
+    v->size_px = sqrt(r2 / n);
+    v->size_mm = mm > 0 ? v->size_px * mm : 0.0;
+
+    /* checks, most specific first */
+    if (v->size_px < lim->size_lo || v->size_px > lim->size_hi) {
+        int big = v->size_px > lim->size_hi;
+        double edge = big ? lim->size_hi : lim->size_lo;
+        mb_reason *r = add_reason(v, MB_REASON_SIZE, v->size_px * u, edge * u);
+        if (r)
+            snprintf(r->text, sizeof r->text,
+                     "size (RMS radius) %.3f %s, band %.3f .. %.3f %s: too %s by "
+                     "%.3f %s", v->size_px * u, unit, lim->size_lo * u,
+                     lim->size_hi * u, unit, big ? "large" : "small",
+                     fabs(v->size_px - edge) * u, unit);
+    }
+    judge_local(ins, &res, v);
+    if (pm->n_gauges > 0 && mm > 0) {
+        for (int c = 0; c < d; c++)
+            ins->mm_pts[c] = res.measured_xy[c] * mm;
+        for (int g = 0; g < pm->n_gauges; g++) {
+            const mb_gauge_def *gd = &pm->gauges[g];
+            mb_gauge_value *gv = &v->gauges[v->n_gauges++];
+            snprintf(gv->name, sizeof gv->name, "%s", gd->name);
+            gv->nominal = gd->nominal;
+            if (mb_gauge_measure(gd, v->layout, ins->mm_pts, ins->work, &gv->value) < 0) {
+                gv->value = NAN;
+                gv->ok = 0;
+            } else {
+                gv->deviation = gv->value - gd->nominal;
+                gv->ok = gv->deviation >= gd->tol_lo && gv->deviation <= gd->tol_hi;
+            }
+            if (!gv->ok) {
+                mb_reason *r = add_reason(v, MB_REASON_GAUGE, gv->value, gd->nominal);
+                if (r) {
+                    r->mode = g;
+                    snprintf(r->text, sizeof r->text,
+                             "gauge %s (%s) %.3f mm, drawing %.3f %+.3f/%+.3f mm",
+                             gd->name, mb_gauge_kind_name(gd->kind), gv->value,
+                             gd->nominal, gd->tol_hi, gd->tol_lo);
+                }
+            }
+        }
+    }
+    for (int q = 0; q < lim->n_judged && q < k; q++) {
+        if (fabs(ins->z[q]) > lim->mode_band[q]) {
+            mb_reason *r = add_reason(v, MB_REASON_MODE, ins->z[q], lim->mode_band[q]);
+            if (r) {
+                r->mode = q + 1;
+                snprintf(r->text, sizeof r->text,
+                         "mode %d of the shape at %+.1f sd, band +-%.1f sd", q + 1,
+                         ins->z[q], lim->mode_band[q]);
+            }
+        }
+    }
+    if (t2 > lim->t2_limit) {
+        mb_reason *r = add_reason(v, MB_REASON_SHAPE, t2, lim->t2_limit);
+        if (r)
+            snprintf(r->text, sizeof r->text,
+                     "overall shape distance T^2 %.1f over its limit %.1f", t2,
+                     lim->t2_limit);
+    }
+    if (spe > lim->spe_limit) {
+        mb_reason *r = add_reason(v, MB_REASON_RESIDUAL, spe, lim->spe_limit);
+        if (r)
+            snprintf(r->text, sizeof r->text,
+                     "shape outside the taught variation: residual %.1f times "
+                     "its limit", spe / lim->spe_limit);
+    }
+    if (!res.converged) {
+        int judged = v->n_reasons;
+        mb_reason *r = add_reason(v, MB_REASON_NO_FIT, 0, 0);
+        if (r)
+            snprintf(r->text, sizeof r->text,
+                     "the model search did not converge (%d of %d landmarks "
+                     "found an edge)%s", res.n_valid, n,
+                     judged ? "" : "; treated as a fault, never a pass");
+        v->verdict = judged ? MB_VERDICT_REJECT : MB_VERDICT_FAULT;
+        goto done;
+    }
+    v->verdict = v->n_reasons ? MB_VERDICT_REJECT : MB_VERDICT_PASS;
+done:
+    MB_ASSERT(v->verdict != MB_VERDICT_PASS || (v->converged && v->n_reasons == 0));
+    MB_ASSERT(v->verdict == MB_VERDICT_PASS || v->n_reasons > 0);
+    v->ms = now_ms() - t0;
+    return MB_OK;
+}
