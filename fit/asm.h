@@ -35,18 +35,18 @@
  * the mean of the normal and two lines 0.75 px either side, and the small
  * shifts of a blurred curved edge are corrected (see asm.c). No edge:
  * the landmark is invalid (counted; its measured point is the model point).
- * Then pose + b are fitted to the valid measured points (bound b_limit),
- * points farther than max(outlier_px, 3 robust sigma) from the fitted
- * outline are left out and the fit is repeated, so that a nick or flash
- * shows as a large distance measured - model instead of dragging the model
- * along. When that fit moved the outline by more than 1 px (for example it
- * turned an oval ring to its ovality), the outline is measured again along
- * the new normals and fitted again, at most 3 rounds, so that measured
- * point i lies on model point i's normal; between rounds the model first
+ * Then pose + b are fitted to the valid measured points (bound b_limit) by
+ * their distances to the tangent lines (so landmarks may slide along the
+ * outline), points farther than max(outlier_px, 3 robust sigma) from the
+ * fitted outline are left out and the fit is repeated, so that a nick or
+ * flash shows as a large distance measured - model instead of dragging the
+ * model along. When that fit slid the outline along itself by more than
+ * 1 px (for example it turned an oval ring to its ovality), the model first
  * follows the outline already measured (each normal intersected with that
- * polyline, refit, repeat), which lets it turn by many pixels along its
- * outline at no image cost. Only full-resolution pixels along the outline
- * are read.
+ * polyline, refit, repeat: it may turn by many pixels at no image cost),
+ * then the image is measured again along the new normals and fitted again,
+ * at most 3 rounds, so that measured point i lies on model point i's
+ * normal. Only full-resolution pixels along the outline are read.
  *
  * Signs: dist = (measured - model) . normal, px, with the normal pointing
  * from the part into the background: positive where material stands out
@@ -117,7 +117,12 @@ typedef struct {
     int converged;          /**< 1 when the finest level met the
                                  convergence rule within max_iter; 0 also
                                  when the search broke down (the fit lost
-                                 its targets or the pose left the frame) */
+                                 its targets, the scale left 0.5..2 times
+                                 the start's or the model centre left the
+                                 frame by half its size) or the fit to the
+                                 measured outline failed. Says nothing of
+                                 how many landmarks found an edge: see
+                                 n_valid */
     int n_starts;           /**< start poses tried */
     int start;              /**< index of the start pose kept */
     mb_pose pose;           /**< model frame -> image px, fitted to the
@@ -141,7 +146,8 @@ typedef struct {
                                  fit, px */
     int measure_rounds;     /**< measure-and-fit rounds at full
                                  resolution (1..3: another when the fit
-                                 moved the outline by more than 1 px) */
+                                 slid the outline along itself by more
+                                 than 1 px) */
     int follow_rounds;      /**< fits to an earlier measured outline
                                  between those rounds (0 unless the fit
                                  had to turn the model along its outline) */
@@ -149,7 +155,10 @@ typedef struct {
                                  from the measured profiles, px (optics,
                                  pixel footprint and interpolation) */
     double profile_cost;    /**< mean best Mahalanobis cost per landmark in
-                                 the last iteration of the finest level */
+                                 the last iteration of the finest level (a
+                                 guide only: the covariances of fine levels
+                                 are tight, so good parts may score tens to
+                                 hundreds against 2k+1 expected) */
     int coarsest, finest;   /**< levels searched */
     int iterations[MB_PYRAMID_MAX_LEVELS]; /**< per level (0 when not
                                                 searched; the coarsest: of

@@ -112,7 +112,7 @@ int mb_profile_normals(const mb_layout *layout, const double *xy, double *nxy)
         for (int i = 0; i < n; i++) {
             int ip = i == 0 ? n - 1 : i - 1, in = i + 1 == n ? 0 : i + 1;
             double tx = q[2 * in] - q[2 * ip], ty = q[2 * in + 1] - q[2 * ip + 1];
-            double len = hypot(tx, ty);
+            double len = sqrt(tx * tx + ty * ty);
             if (!(len > 0.0)) {
                 r[2 * i] = r[2 * i + 1] = 0.0;
                 rc = MB_EDEGENERATE;

@@ -194,7 +194,7 @@ static void fault_unreadable(const char *image, const char *why, int json)
     v.verdict = MB_VERDICT_FAULT;
     v.n_reasons = 1;
     v.reasons[0].code = MB_REASON_FRAME;
-    snprintf(v.reasons[0].text, sizeof v.reasons[0].text, "%s", why);
+    snprintf(v.reasons[0].text, sizeof v.reasons[0].text, "%.190s", why);
     if (json)
         print_json(image, &v);
     else
@@ -250,7 +250,7 @@ int mb_cmd_inspect(int argc, char **argv)
     ip.mm_per_px = mm;
     char cerr[MB_ERR_LEN];
     if (mb_inspector_create(&pm, &ip, &ins, cerr) < 0) {
-        snprintf(err, sizeof err, "%s: %s", model, cerr);
+        snprintf(err, sizeof err, "%.200s: %.300s", model, cerr);
         status = mb_cli_fail("inspect", err);
         goto done;
     }

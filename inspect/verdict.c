@@ -28,6 +28,9 @@ struct mb_inspector {
     mb_locate *loc;
     mb_asm *search;
     double *y, *b, *z, *work, *mm_pts;
+    /* the curve fit (see refit_curve) */
+    double *target, *recon, *nrm, *cdist, *fwork, *bfit;
+    uint8_t *cvalid;
     double mean_cx, mean_cy;  /* centroid of the mean shape (model frame) */
     double *mean_angle;       /* n: angle of each landmark on the part, deg */
 };
@@ -73,6 +76,13 @@ void mb_inspector_close(mb_inspector *ins)
     free(ins->work);
     free(ins->mm_pts);
     free(ins->mean_angle);
+    free(ins->target);
+    free(ins->recon);
+    free(ins->nrm);
+    free(ins->cdist);
+    free(ins->fwork);
+    free(ins->bfit);
+    free(ins->cvalid);
     free(ins);
 }
 
@@ -120,8 +130,16 @@ int mb_inspector_create(const mb_part_model *pm, const mb_inspect_params *p,
     ins->work = malloc((size_t)(3 * maxc + 8) * sizeof *ins->work);
     ins->mm_pts = malloc((size_t)ins->d * sizeof *ins->mm_pts);
     ins->mean_angle = malloc((size_t)ins->n * sizeof *ins->mean_angle);
+    ins->target = malloc((size_t)ins->d * sizeof *ins->target);
+    ins->recon = malloc((size_t)ins->d * sizeof *ins->recon);
+    ins->nrm = malloc((size_t)ins->d * sizeof *ins->nrm);
+    ins->cdist = malloc((size_t)ins->n * sizeof *ins->cdist);
+    ins->fwork = malloc((size_t)mb_shape_model_fit_work_size(pm->shape) * sizeof *ins->fwork);
+    ins->bfit = malloc((size_t)(ins->k + 1) * sizeof *ins->bfit);
+    ins->cvalid = malloc((size_t)ins->n);
     if (!ins->y || !ins->b || !ins->z || !ins->work || !ins->mm_pts ||
-        !ins->mean_angle) {
+        !ins->mean_angle || !ins->target || !ins->recon || !ins->nrm ||
+        !ins->cdist || !ins->fwork || !ins->bfit || !ins->cvalid) {
         rc = mb_err_set(err, MB_ENOMEM, "out of memory");
         goto fail;
     }
@@ -182,6 +200,119 @@ static void outline_name(int o, char *buf, size_t len)
         snprintf(buf, len, "hole %d", o);
 }
 
+/*
+ * Judge the measured outline as a curve, not as points. The search leaves
+ * measured point i on model point i's normal; where the model's pose is
+ * off along the outline (a ring's rotation is only fixed by its slight
+ * ovality) the points are slid along the curve and an oval part would read
+ * as deformed. So the model (pose + b, bound b_limit) is fitted to the
+ * measured polyline itself: each model point's target is the nearest point
+ * of the measured polyline of its outline (searched among nearby segments),
+ * refitted a few times; measured points without an edge and points beyond
+ * max(1 px, 3 robust sigma) are held at the model so they cannot pull it.
+ * Results: ins->target (the corresponded measured points), ins->recon (the
+ * model), ins->cdist (signed normal distance target - model), ins->cvalid.
+ */
+static void refit_curve(mb_inspector *ins, const mb_asm_result *res,
+                        const mb_layout *l)
+{
+    const mb_shape_model *sm = ins->pm->shape;
+    const double *mx = res->measured_xy;
+    int n = ins->n, k = ins->k;
+    mb_fit_params fp;
+    mb_fit_params_default(&fp);
+    fp.b_limit = ins->p.search.b_limit;
+    fp.max_iter = 10;
+    memcpy(ins->target, mx, (size_t)ins->d * sizeof *ins->target);
+    memcpy(ins->recon, res->model_xy, (size_t)ins->d * sizeof *ins->recon);
+    for (int q = 0; q < k; q++)
+        ins->bfit[q] = res->b[q];
+    double cut = 1e300;
+    for (int it = 0; it < 4; it++) {
+        /* targets: nearest point of the measured polyline to each model point */
+        int first = 0;
+        for (int o = 0; o < l->n_outlines; o++) {
+            int c = l->counts[o];
+            for (int t = 0; t < c; t++) {
+                int j = first + t;
+                const double *p = ins->recon + 2 * j;
+                double best = 1e300, bx = p[0], by = p[1];
+                int found = 0;
+                for (int s = -3; s <= 2; s++) {
+                    int a = first + ((t + s) % c + c) % c;
+                    int b = first + ((t + s + 1) % c + c) % c;
+                    if (!res->valid[a] || !res->valid[b])
+                        continue;
+                    double ax = mx[2 * a], ay = mx[2 * a + 1];
+                    double ex = mx[2 * b] - ax, ey = mx[2 * b + 1] - ay;
+                    double ee = ex * ex + ey * ey;
+                    double u = ee > 0 ? ((p[0] - ax) * ex + (p[1] - ay) * ey) / ee : 0;
+                    u = u < 0 ? 0 : u > 1 ? 1 : u;
+                    double qx = ax + u * ex, qy = ay + u * ey;
+                    double dd = (qx - p[0]) * (qx - p[0]) + (qy - p[1]) * (qy - p[1]);
+                    if (dd < best) {
+                        best = dd;
+                        bx = qx;
+                        by = qy;
+                        found = 1;
+                    }
+                }
+                ins->cvalid[j] = (uint8_t)found;
+                ins->target[2 * j] = bx;
+                ins->target[2 * j + 1] = by;
+            }
+            first += c;
+        }
+        /* signed distances and the robust cut */
+        mb_profile_normals(l, ins->recon, ins->nrm);
+        int nv = 0;
+        for (int j = 0; j < n; j++) {
+            ins->cdist[j] = (ins->target[2 * j] - ins->recon[2 * j]) * ins->nrm[2 * j] +
+                            (ins->target[2 * j + 1] - ins->recon[2 * j + 1]) * ins->nrm[2 * j + 1];
+            if (ins->cvalid[j])
+                ins->work[nv++] = fabs(ins->cdist[j]);
+        }
+        if (it == 3 || nv < 3)
+            break;
+        /* median |dist| by partial selection (nth element, O(n) average) */
+        int lo = 0, hi = nv - 1, want = nv / 2;
+        while (lo < hi) {
+            double piv = ins->work[(lo + hi) / 2];
+            int i = lo, j = hi;
+            while (i <= j) {
+                while (ins->work[i] < piv)
+                    i++;
+                while (ins->work[j] > piv)
+                    j--;
+                if (i <= j) {
+                    double t = ins->work[i];
+                    ins->work[i++] = ins->work[j];
+                    ins->work[j--] = t;
+                }
+            }
+            if (want <= j)
+                hi = j;
+            else if (want >= i)
+                lo = i;
+            else
+                break;
+        }
+        cut = fmax(1.0, 3.0 * 1.4826 * ins->work[want]);
+        /* fit to the targets; outliers and invalid points held at the model */
+        double *tg = ins->y; /* scratch, d values */
+        for (int j = 0; j < n; j++) {
+            int use = ins->cvalid[j] && fabs(ins->cdist[j]) <= cut;
+            tg[2 * j] = use ? ins->target[2 * j] : ins->recon[2 * j];
+            tg[2 * j + 1] = use ? ins->target[2 * j + 1] : ins->recon[2 * j + 1];
+        }
+        mb_fit_result fr;
+        if (mb_shape_model_fit(sm, tg, NULL, &fp, ins->bfit, &fr, ins->fwork) < 0)
+            break;
+        mb_shape_model_reconstruct(sm, ins->bfit, ins->y);
+        mb_pose_apply(&fr.pose, ins->y, n, ins->recon);
+    }
+}
+
 /* Local deviations and gaps, worst first per outline and sign. */
 static void judge_local(mb_inspector *ins, const mb_asm_result *res,
                         mb_verdict *v)
@@ -193,7 +324,7 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
     int first = 0;
     for (int o = 0; o < l->n_outlines; o++) {
         int c = l->counts[o];
-        double len = mb_gauge_length(res->measured_xy + 2 * first, c) * mm;
+        double len = mb_gauge_length(ins->target + 2 * first, c) * mm;
         char oname[32];
         outline_name(o, oname, sizeof oname);
         /* gaps: runs of landmarks without an edge */
@@ -214,8 +345,8 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
                 r->position = (double)(mid - first) / c;
                 r->position_mm = r->position * len;
                 r->angle_deg = ins->mean_angle[mid];
-                r->x = res->model_xy[2 * mid];
-                r->y = res->model_xy[2 * mid + 1];
+                r->x = ins->recon[2 * mid];
+                r->y = ins->recon[2 * mid + 1];
                 r->extent_mm = best_run * len / c;
                 snprintf(r->text, sizeof r->text,
                          "edge missing on %s over %.2f %s at %.0f deg (%.0f %% "
@@ -229,9 +360,9 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
             double wr = 1.0;
             for (int t = 0; t < c; t++) {
                 int j = first + t;
-                if (!res->valid[j] || res->dist[j] * sign <= 0)
+                if (!ins->cvalid[j] || ins->cdist[j] * sign <= 0)
                     continue;
-                double ratio = fabs(res->dist[j]) / lim[j];
+                double ratio = fabs(ins->cdist[j]) / lim[j];
                 if (ratio > wr) {
                     wr = ratio;
                     worst = j;
@@ -242,15 +373,15 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
             int ext = 1;
             for (int s = 1; s < c; s++) {
                 int j = first + (worst - first + s) % c;
-                if (!res->valid[j] || res->dist[j] * sign <= 0 ||
-                    fabs(res->dist[j]) <= lim[j])
+                if (!ins->cvalid[j] || ins->cdist[j] * sign <= 0 ||
+                    fabs(ins->cdist[j]) <= lim[j])
                     break;
                 ext++;
             }
             for (int s = 1; s < c - ext + 1; s++) {
                 int j = first + ((worst - first - s) % c + c) % c;
-                if (!res->valid[j] || res->dist[j] * sign <= 0 ||
-                    fabs(res->dist[j]) <= lim[j])
+                if (!ins->cvalid[j] || ins->cdist[j] * sign <= 0 ||
+                    fabs(ins->cdist[j]) <= lim[j])
                     break;
                 ext++;
             }
@@ -259,7 +390,7 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
             int deform = ext * 6 > c;
             mb_reason_code code = deform ? MB_REASON_DEFORM
                                   : sign < 0 ? MB_REASON_NICK : MB_REASON_FLASH;
-            double depth = fabs(res->dist[worst]);
+            double depth = fabs(ins->cdist[worst]);
             mb_reason *r = add_reason(v, code, depth * mm, lim[worst] * mm);
             if (!r)
                 continue;
@@ -267,8 +398,8 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
             r->position = (double)(worst - first) / c;
             r->position_mm = r->position * len;
             r->angle_deg = ins->mean_angle[worst];
-            r->x = res->measured_xy[2 * worst];
-            r->y = res->measured_xy[2 * worst + 1];
+            r->x = ins->target[2 * worst];
+            r->y = ins->target[2 * worst + 1];
             r->depth_px = depth;
             r->depth_mm = depth * mm;
             r->extent_mm = ext * len / c;
@@ -373,6 +504,10 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
        deformed part gets the reasons that show it; it can never pass: with
        no failed check it is a fault (below). */
 
+    refit_curve(ins, &res, v->layout);
+    v->model_xy = ins->recon;
+    v->dist = ins->cdist;
+
     /* scores of the measured outline, as in the teaching (bands.c) */
     const mb_shape_model *sm = pm->shape;
     const double *mean = mb_shape_model_mean(sm);
@@ -380,11 +515,11 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
     const double *eig = mb_shape_model_eig(sm);
     int n = ins->n, d = ins->d, k = ins->k;
     mb_pose al;
-    if (mb_procrustes_fit(res.measured_xy, mean, n, NULL, &al, NULL) < 0) {
+    if (mb_procrustes_fit(ins->target, mean, n, NULL, &al, NULL) < 0) {
         fault(v, MB_REASON_INTERNAL, "the measured outline is degenerate");
         goto done;
     }
-    mb_pose_apply(&al, res.measured_xy, n, ins->y);
+    mb_pose_apply(&al, ins->target, n, ins->y);
     double ym = 0, mm2 = 0;
     for (int c = 0; c < d; c++) {
         ym += ins->y[c] * mean[c];
