@@ -35,9 +35,10 @@
  * distortion, then refined by Levenberg-Marquardt on the reprojection
  * error (Levenberg 1944; Marquardt 1963; scaling and stopping rules after
  * More, "The Levenberg-Marquardt algorithm: implementation and theory",
- * in Numerical Analysis, ed. G. A. Watson, Springer 1978, pp. 105-116). This is the plane-based
- * approach of Zhang (IEEE PAMI 22(11), 2000) kept to one plane, where the
- * plane-to-image map needs no intrinsic/extrinsic split.
+ * in Numerical Analysis, ed. G. A. Watson, Springer 1978, pp. 105-116).
+ * This is the plane-based approach of Zhang (IEEE PAMI 22(11), 2000) kept
+ * to one plane, where the plane-to-image map needs no intrinsic/extrinsic
+ * split.
  * The centre of an imaged dot (area centroid of its dark blob) is not the
  * image of the dot's centre under perspective and distortion; the fit
  * corrects each observation by the offset the current model predicts

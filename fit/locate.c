@@ -54,7 +54,7 @@ void mb_locate_params_default(mb_locate_params *p)
     p->other_area = 0.25;
     p->round_ratio = 0.85;
     p->n_round_angles = 8;
-    p->symmetry_tol = 0.01;
+    p->symmetry_tol = 0.03;
 }
 
 void mb_locate_close(mb_locate *loc)

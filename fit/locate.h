@@ -72,7 +72,10 @@ typedef struct {
                               costs a coarse-level search; default 8 */
     double symmetry_tol; /**< a model whose every outline keeps its radius
                               about the part centroid within this fraction is
-                              rotation-symmetric; default 0.01 */
+                              rotation-symmetric (an oval ring: the search
+                              turns the model to its ovality from any start;
+                              a hexagon varies 7 %, a square 20 %); default
+                              0.03 */
 } mb_locate_params;
 
 typedef struct {

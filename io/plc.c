@@ -292,7 +292,7 @@ int mb_plc_open(const mb_plc_config *cfg, int64_t now_ms, mb_plc **out,
     plc->fd = -1;
     for (int i = 0; i < MB_PLC_MAX_CONN; i++)
         plc->conn[i].fd = -1;
-    plc->last_req_slot = -1;
+    plc->last_now = now_ms;
     plc->be = cfg->mode == MB_PLC_SERVER ? &mb_plc_server_backend
                                          : &mb_plc_client_backend;
     mb_plc_map_init(&plc->map, cfg->active_slot);

@@ -25,6 +25,7 @@
 #include "locate.h"
 #include "synth_teach.h"
 
+#include <cblas.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -109,6 +110,7 @@ int main(int argc, char **argv)
         fprintf(stderr, "usage: bench_search [RUNS]\n");
         return 2;
     }
+    openblas_set_num_threads(1); /* the station runs BLAS on one core */
     char err[MB_ERR_LEN] = "";
     mb_image frames[PARTS], copy;
     kept_truth truths[PARTS];
