@@ -23,7 +23,7 @@
  *      dot (0, 0); when two readings remain (square grids: the target and
  *      its mirror image), the one that keeps the sheet's handedness (a
  *      camera that sees the front of the sheet) is used.
- *   5. Sub-pixel centres: grey-weighted centroid of (background - grey)
+ *   5. Sub-pixel centres: grey-weighted centroid of 1 - grey / background
  *      over a window of 0.45 lattice cells around each dot (an ellipse
  *      following the local lattice), the background a plane fitted to the
  *      ring from 0.45 to 0.55 cells; twice re-centred. For a linear

@@ -12,7 +12,9 @@
  * 0 for Modbus), length (2, counting the unit id and the PDU) and unit id
  * (1); the largest ADU is 260 bytes, so a length outside 2..254 or a
  * protocol id other than 0 cannot be Modbus: the stream cannot be
- * resynchronised and that connection is closed. Every request is checked
+ * resynchronised and that connection is closed; so is one that sends a
+ * function code of 128 or more (reserved for exception responses). Every
+ * request is checked
  * by mb_plc_check_request before libmodbus sees it, so libmodbus only ever
  * executes reads of the map and writes of coils 0-2 and register 32.
  * The unit id is not filtered: a server reached directly over TCP answers
@@ -306,6 +308,16 @@ static int frames(mb_plc *plc, mb_plc_conn *c, int64_t now_ms)
         int total = 6 + len;
         if (c->have - off < total)
             break;
+        if (f[MB_PLC_MBAP_LEN] & 0x80) {
+            /* 128-255 are reserved for exception responses (Modbus
+             * Application Protocol Specification V1.1b3, section 4.1): no
+             * client sends them, and no exception reply can echo them. */
+            char why[96];
+            snprintf(why, sizeof why, "function code %d is not a request",
+                     f[MB_PLC_MBAP_LEN]);
+            drop(plc, c, &plc->stats.dropped_framing, why);
+            return -1;
+        }
         if (answer(plc, c, f, total) < 0) {
             char why[96];
             snprintf(why, sizeof why, "reply not sent: %s", strerror(errno));
