@@ -94,6 +94,12 @@ struct mb_asm {
     double *g;        /* one profile */
     double *cwork;    /* profile cost scratch */
     double *cost;     /* 2ns + 1 */
+    /* dense measurement (see dense) */
+    int dense_cap, dense_n, dense_n_valid;
+    double dense_spacing;
+    double *dense_xy, *dense_nrm, *dense_dist, *dense_frac; /* 2c, 2c, c, c */
+    int *dense_seg;   /* c */
+    uint8_t *dense_valid; /* c */
 };
 
 void mb_asm_params_default(mb_asm_params *p)
@@ -112,6 +118,7 @@ void mb_asm_params_default(mb_asm_params *p)
     p->refine_range = 8;
     p->edge_fraction = 0.1;
     p->outlier_px = 1.0;
+    p->dense_step = 1.0;
 }
 
 void mb_asm_close(mb_asm *a)
@@ -145,12 +152,25 @@ void mb_asm_close(mb_asm *a)
     free(a->g);
     free(a->cwork);
     free(a->cost);
+    free(a->dense_xy);
+    free(a->dense_nrm);
+    free(a->dense_dist);
+    free(a->dense_frac);
+    free(a->dense_seg);
+    free(a->dense_valid);
     free(a);
 }
 
 size_t mb_asm_workspace_bytes(const mb_asm *a)
 {
     return a ? a->bytes : 0;
+}
+
+/* Squared distance of two points (x, y). */
+static double sq_dist(const double *p, const double *q)
+{
+    double dx = p[0] - q[0], dy = p[1] - q[1];
+    return dx * dx + dy * dy;
 }
 
 static void *take(mb_asm *a, size_t count, size_t size)
@@ -196,7 +216,8 @@ int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
         !(p->b_limit_search >= 0.0) || p->fit_iter < 1 ||
         p->refine_range < 1 || p->refine_range > 64 ||
         !(p->edge_fraction >= 0.0 && p->edge_fraction <= 1.0) ||
-        !(p->outlier_px > 0.0))
+        !(p->outlier_px > 0.0) ||
+        !(p->dense_step == 0.0 || (p->dense_step >= 0.25 && p->dense_step <= 16.0)))
         return mb_err_set(err, MB_EINVAL, "search: a parameter is out of "
                           "range (levels %d..%d of a %d-level profile model)",
                           coarsest, p->finest_level, plevels);
@@ -254,6 +275,31 @@ int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
     a->g = take(a, (size_t)a->plen, sizeof(double));
     a->cwork = take(a, (size_t)a->plen, sizeof(double));
     a->cost = take(a, (size_t)(2 * ns + 1), sizeof(double));
+    if (p->dense_step > 0.0) {
+        /* twice the mean outline's length at the taught size, over the
+           step, plus one sample per landmark (see asm.h) */
+        const double *mean = mb_shape_model_mean(sm);
+        double len = 0.0;
+        for (int o = 0, first = 0; o < lay->n_outlines; first += lay->counts[o], o++)
+            for (int r = 0; r < lay->counts[o]; r++) {
+                int i = first + r, j = first + (r + 1) % lay->counts[o];
+                len += sqrt(sq_dist(mean + 2 * i, mean + 2 * j));
+            }
+        double px = st->size > 0.0 && isfinite(st->size) ? st->size / a->radius
+                                                          : (double)(width + height);
+        double cap = ceil(2.0 * len * px / p->dense_step) + (double)a->n;
+        a->dense_cap = cap < 64.0 * a->n ? (int)cap : 64 * a->n;
+        const size_t c = (size_t)a->dense_cap;
+        a->dense_xy = take(a, 2 * c, sizeof(double));
+        a->dense_nrm = take(a, 2 * c, sizeof(double));
+        a->dense_dist = take(a, c, sizeof(double));
+        a->dense_frac = take(a, c, sizeof(double));
+        a->dense_seg = take(a, c, sizeof(int));
+        a->dense_valid = take(a, c, 1);
+        if (!a->dense_xy || !a->dense_nrm || !a->dense_dist || !a->dense_frac ||
+            !a->dense_seg || !a->dense_valid)
+            goto fail;
+    }
     if (!a->b || !a->b_best || !a->b_sd || !a->xm || !a->pts || !a->nrm ||
         !a->target || !a->meas || !a->dist || !a->absd || !a->kappa || !a->gn_a || !a->gn_g ||
         !a->sd || !a->gn_r || !a->gn_res || !a->poly || !a->pvalid || !a->seg || !a->valid ||
@@ -268,13 +314,6 @@ int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
 fail:
     mb_asm_close(a);
     return mb_err_set(err, MB_ENOMEM, "search: out of memory");
-}
-
-/* Squared distance of two points (x, y). */
-static double sq_dist(const double *p, const double *q)
-{
-    double dx = p[0] - q[0], dy = p[1] - q[1];
-    return dx * dx + dy * dy;
 }
 
 /* Model outline in the image for pose and a->b, with its normals. */
@@ -560,6 +599,110 @@ static int measure(mb_asm *a, const mb_image *img0)
     return nv;
 }
 
+/*
+ * The dense measurement (asm.h): between every two consecutive landmarks
+ * i, j of an outline, m = ceil(L / step) samples at f = q / m, q = 0..m-1,
+ * L the chord, on the Catmull-Rom cubic through h, i, j, k (Catmull & Rom,
+ * "A class of local interpolating splines", Computer Aided Geometric
+ * Design, 1974; uniform parameter):
+ *     P(f) = P_i + f (c1 + f (c2 + f c3)),  c1 = (P_j - P_h) / 2,
+ *     c2 = (2 P_h - 5 P_i + 4 P_j - P_k) / 2, c3 = (3 (P_i - P_j) + P_k - P_h) / 2,
+ * whose tangent at f = 0 is the landmark normal's chord (P_j - P_h) / 2.
+ * q = 0 is landmark i: its measurement is copied. Elsewhere the edge is
+ * found by edge_along along the cubic's normal and given the same
+ * curvature correction as in measure (kappa interpolated between i and j).
+ * Sum of m <= total / step + n: step is widened when that would not fit the
+ * buffers. Call after distances() on the final outline.
+ */
+static void dense(mb_asm *a, const mb_image *img0)
+{
+    const mb_layout *lay = mb_shape_model_layout(a->sm);
+    const double *p = a->pts;
+    a->dense_n = 0;
+    a->dense_n_valid = 0;
+    a->dense_spacing = 0.0;
+    if (a->dense_cap <= a->n)
+        return;
+    double total = 0.0;
+    for (int o = 0, first = 0; o < lay->n_outlines; first += lay->counts[o], o++)
+        for (int r = 0; r < lay->counts[o]; r++)
+            total += sqrt(sq_dist(p + 2 * (first + r),
+                                  p + 2 * (first + (r + 1) % lay->counts[o])));
+    double step = a->p.dense_step;
+    if (total > step * (a->dense_cap - a->n))
+        step = total / (a->dense_cap - a->n);
+    const double shift = SIDE * SIDE / 3.0 + 0.5 * a->blur * a->blur;
+    int c = 0, nv = 0;
+    for (int o = 0, first = 0; o < lay->n_outlines; first += lay->counts[o], o++) {
+        const int cnt = lay->counts[o];
+        for (int r = 0; r < cnt && c < a->dense_cap; r++) {
+            const int i = first + r, j = first + (r + 1) % cnt;
+            const int h = first + (r + cnt - 1) % cnt, k = first + (r + 2) % cnt;
+            const double *P0 = p + 2 * h, *P1 = p + 2 * i, *P2 = p + 2 * j, *P3 = p + 2 * k;
+            int m = (int)ceil(sqrt(sq_dist(P1, P2)) / step);
+            m = m < 1 ? 1 : m > a->dense_cap - c ? a->dense_cap - c : m;
+            double c1[2], c2[2], c3[2];
+            for (int e = 0; e < 2; e++) {
+                c1[e] = 0.5 * (P2[e] - P0[e]);
+                c2[e] = 0.5 * (2.0 * P0[e] - 5.0 * P1[e] + 4.0 * P2[e] - P3[e]);
+                c3[e] = 0.5 * (3.0 * (P1[e] - P2[e]) + P3[e] - P0[e]);
+            }
+            for (int q = 0; q < m; q++, c++) {
+                double *xy = a->dense_xy + 2 * c, *nv2 = a->dense_nrm + 2 * c;
+                const double f = (double)q / m;
+                a->dense_seg[c] = i;
+                a->dense_frac[c] = f;
+                if (q == 0) {
+                    xy[0] = P1[0];
+                    xy[1] = P1[1];
+                    nv2[0] = a->nrm[2 * i];
+                    nv2[1] = a->nrm[2 * i + 1];
+                    a->dense_dist[c] = a->dist[i];
+                    a->dense_valid[c] = a->valid[i];
+                    nv += a->valid[i];
+                    continue;
+                }
+                double d[2];
+                for (int e = 0; e < 2; e++) {
+                    xy[e] = P1[e] + f * (c1[e] + f * (c2[e] + f * c3[e]));
+                    d[e] = c1[e] + f * (2.0 * c2[e] + 3.0 * f * c3[e]);
+                }
+                /* normal of the cubic, on the side of the landmarks' */
+                double lx = (1.0 - f) * a->nrm[2 * i] + f * a->nrm[2 * j];
+                double ly = (1.0 - f) * a->nrm[2 * i + 1] + f * a->nrm[2 * j + 1];
+                double nx = d[1], ny = -d[0], len = hypot(nx, ny);
+                if (!(len > 0.0)) {
+                    nx = lx;
+                    ny = ly;
+                    len = hypot(nx, ny);
+                }
+                a->dense_valid[c] = 0;
+                a->dense_dist[c] = 0.0;
+                if (!(len > 0.0)) {
+                    nv2[0] = nv2[1] = 0.0;
+                    continue;
+                }
+                if (nx * lx + ny * ly < 0.0)
+                    len = -len;
+                nx /= len;
+                ny /= len;
+                nv2[0] = nx;
+                nv2[1] = ny;
+                double t, ratio;
+                if (edge_along(a, img0, xy[0], xy[1], nx, ny, &t, &ratio)) {
+                    const double kap = (1.0 - f) * a->kappa[i] + f * a->kappa[j];
+                    a->dense_valid[c] = 1;
+                    a->dense_dist[c] = t + kap * shift;
+                    nv++;
+                }
+            }
+        }
+    }
+    a->dense_n = c;
+    a->dense_n_valid = nv;
+    a->dense_spacing = c > 0 ? total / c : 0.0;
+}
+
 /* Solve the SPD system A x = g (dim x dim, column-major, overwritten by
    its Cholesky factor) in place of g. Returns 0 or MB_ENUMERIC. */
 static int solve_spd(double *A, double *g, int dim)
@@ -813,6 +956,15 @@ static void fill_result(mb_asm *a, const mb_pose *pose, mb_asm_result *res)
     res->edge_blur = a->blur;
     res->coarsest = a->coarsest;
     res->finest = a->finest;
+    res->dense_n = a->dense_n;
+    res->dense_n_valid = a->dense_n_valid;
+    res->dense_spacing = a->dense_spacing;
+    res->dense_xy = a->dense_xy;
+    res->dense_normal = a->dense_nrm;
+    res->dense_dist = a->dense_dist;
+    res->dense_valid = a->dense_valid;
+    res->dense_seg = a->dense_seg;
+    res->dense_frac = a->dense_frac;
 }
 
 int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
@@ -981,6 +1133,9 @@ int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
             nu++;
         }
     res->fit_rms = nu > 0 ? sqrt(ss / nu) : 0.0;
+    a->dense_n = 0;
+    if (!broke && res->n_valid >= 3)
+        dense(a, img0);
     fill_result(a, &pose, res);
     return MB_OK;
 }

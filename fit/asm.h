@@ -48,6 +48,26 @@
  * at most 3 rounds, so that measured point i lies on model point i's
  * normal. Only full-resolution pixels along the outline are read.
  *
+ * The dense measurement: a nick, tear or piece of dirt narrower than the
+ * landmark spacing (5-9 px) falls between two landmarks. So, after the
+ * final fit, the edge is also found between every two consecutive
+ * landmarks of an outline, about every dense_step px along the model
+ * outline, with the same edge finder, range and curvature corrections as
+ * at the landmarks. The model outline between landmarks i and j (the next
+ * one of its outline) is the Catmull-Rom cubic through the landmarks
+ * h, i, j, k (uniform parameter f in 0..1 from i to j), not the chord: on
+ * a circle of radius R cut every L px the chord misses the curve by
+ * L^2 / 8R (0.2 px for L = 5 px on a 16 px hole, the size of a local
+ * limit), the cubic by about a hundredth of that; the normal there is the
+ * cubic's, turned to agree with the landmarks'. The sample at f = 0 is
+ * landmark i itself (its measurement is copied, not repeated), so the
+ * dense samples of an outline run round it in order without a hole. At a
+ * sharp corner (a cut end, a lip tip) the cubic still rounds the corner:
+ * the caller relaxes its limits there (inspect/verdict.c). The count is
+ * bounded in mb_asm_create by twice the model outline's length at the
+ * taught size (profile stats size) over dense_step, plus one per landmark;
+ * a larger part gets proportionally wider spacing, never a buffer overrun.
+ *
  * Signs: dist = (measured - model) . normal, px, with the normal pointing
  * from the part into the background: positive where material stands out
  * of the model outline (flash), negative where material is missing (nick).
@@ -109,6 +129,12 @@ typedef struct {
                                point is left out of the final fit (the cut is
                                max(outlier_px, 3 * 1.4826 * median |dist|));
                                default 1.0 */
+    double dense_step;    /**< px along the model outline between dense
+                               samples (see above); a slit w px wide is
+                               crossed by about w / dense_step of them; each
+                               costs what a landmark's measurement costs;
+                               0 = no dense measurement; 0.25 .. 16 else;
+                               default 1.0 */
 } mb_asm_params;
 
 /** Figures of one search. Pointers into the workspace, valid until its next
@@ -164,6 +190,23 @@ typedef struct {
                                                 searched; the coarsest: of
                                                 the start kept) */
     int level_converged[MB_PYRAMID_MAX_LEVELS]; /**< per level */
+    /* The dense measurement (see above); dense_n = 0 when it was not
+       made (dense_step 0, the search broke down, fewer than 3 edges). */
+    int dense_n;             /**< dense samples, all outlines in layout
+                                  order, each outline's in order along it */
+    int dense_n_valid;       /**< of them with an edge */
+    double dense_spacing;    /**< mean spacing used, px (dense_step unless
+                                  the part was too large for the buffers) */
+    const double *dense_xy;  /**< 2 dense_n: model curve points, image px */
+    const double *dense_normal; /**< 2 dense_n: unit normals there */
+    const double *dense_dist; /**< dense_n: (measured - model) . normal, px;
+                                   0 where invalid */
+    const uint8_t *dense_valid; /**< dense_n: 1 when an edge was found */
+    const int *dense_seg;    /**< dense_n: landmark i (global index): the
+                                  sample lies between i and the next
+                                  landmark of i's outline */
+    const double *dense_frac; /**< dense_n: fraction 0..1 of the way from
+                                   landmark i to the next (0: i itself) */
 } mb_asm_result;
 
 typedef struct mb_asm mb_asm;

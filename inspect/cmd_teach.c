@@ -447,9 +447,9 @@ static int teach_from_images(const char *dir, const char *out,
         printf("warning: only %d good parts were usable; %d or more are "
                "advised for stable limits\n", log.n_used, MB_TEACH_GOOD_IMAGES);
     printf("time: outlines %.2f s, correspondence %.2f s, model %.2f s, "
-           "bands %.2f s, profiles %.2f s, total %.2f s\n",
+           "bands %.2f s, profiles %.2f s, second pass %.2f s, total %.2f s\n",
            log.seconds[0], log.seconds[1], log.seconds[2], log.seconds[3],
-           log.seconds[4], log.seconds[5]);
+           log.seconds[4], log.seconds[6], log.seconds[5]);
     int status = MB_EXIT_OK;
     if (mb_part_model_save(out, &pm, err) < 0) {
         status = mb_cli_fail("teach", err);

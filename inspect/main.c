@@ -18,6 +18,7 @@ static const mb_command commands[] = {
     {"model-info", mb_cmd_model_info, "print the summary of a model file"},
     {"inspect", mb_cmd_inspect, "judge images against a taught model"},
     {"synth", mb_cmd_synth, "write frames of the synthetic production line"},
+    {"plc-sim", mb_cmd_plcsim, "act as a PLC: trigger, read and acknowledge results"},
 };
 
 static void usage(FILE *f)

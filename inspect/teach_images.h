@@ -44,8 +44,9 @@ typedef struct {
     int n_outliers;       /**< of those, left out as outliers */
     int modes_capped;     /**< 1: k was capped by the number of parts */
     mb_bands_scores scores; /**< leave-one-out scores of the used parts */
-    double seconds[8];    /**< per stage: load+outline, correspond, model,
-                               bands, profiles, total */
+    double seconds[8];    /**< per stage: [0] load+outline, [1] correspond, [2] model,
+                               [3] bands, [4] profiles, [5] total, [6] second
+                               pass (measured as inspection measures) */
     double blur, contrast;/**< median edge blur (px) and contrast (grey) */
 } mb_teach_log;
 

@@ -506,6 +506,7 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
 
     refit_curve(ins, &res, v->layout);
     v->model_xy = ins->recon;
+    v->corresponded = ins->target;
     v->dist = ins->cdist;
 
     /* scores of the measured outline, as in the teaching (bands.c) */

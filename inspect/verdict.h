@@ -99,6 +99,10 @@ typedef struct {
     const mb_layout *layout;
     const double *measured; /**< 2n image px; valid until the next run */
     const double *model_xy; /**< 2n image px */
+    const double *corresponded; /**< 2n image px: the measured outline at
+                                     the model's landmarks (nearest points
+                                     of the measured polyline); what the
+                                     scores are computed from */
     const double *dist;     /**< n px, measured - model along the normal */
     const uint8_t *valid;   /**< n */
     double ms;              /**< time of the inspection, ms */

@@ -317,6 +317,69 @@ static void test_drop_late_and_max_frames(void **state)
     mb_source_close(src);
 }
 
+/* mb_synth_make_at at the pose mb_synth_make drew gives the same frame:
+   same part, defect and noise, only the placement is the caller's. */
+static void test_make_at_matches_make(void **state)
+{
+    (void)state;
+    mb_synth_config c;
+    mb_synth_config_default(&c, MB_SYNTH_FLANGE);
+    c.width = 400;
+    c.height = 400;
+    c.mm_per_px = 0.15;
+    c.defect_rate = 0.7;
+    mb_synth *g = NULL;
+    char err[MB_ERR_LEN] = "";
+    assert_int_equal(mb_synth_open(&c, &g, err), 0);
+    mb_image a, b;
+    assert_int_equal(mb_image_alloc(400, 400, &a), 0);
+    assert_int_equal(mb_image_alloc(400, 400, &b), 0);
+    for (uint64_t i = 0; i < 6; i++) {
+        mb_synth_truth ta, tb;
+        assert_int_equal(mb_synth_make(g, i, 2, MB_SYNTH_DRAW, &a, &ta), 0);
+        mb_pose pose = ta.pose;
+        assert_int_equal(
+            mb_synth_make_at(g, i, 2, MB_SYNTH_DRAW, &pose, &b, &tb), 0);
+        for (int y = 0; y < 400; y++)
+            assert_memory_equal(a.pixels + (size_t)y * a.stride,
+                                b.pixels + (size_t)y * b.stride, 400);
+        assert_int_equal(ta.defect.type, tb.defect.type);
+        if (!ta.present)
+            continue;
+        /* moved by 25 px: the outlines move with it (the generator reuses
+           its outline buffer, so keep the first point) */
+        double x0 = ta.outlines.xy[0], y0 = ta.outlines.xy[1];
+        pose.tx += 25;
+        assert_int_equal(
+            mb_synth_make_at(g, i, 2, MB_SYNTH_DRAW, &pose, &b, &tb), 0);
+        assert_true(fabs(tb.outlines.xy[0] - x0 - 25) < 1e-9);
+        assert_true(fabs(tb.outlines.xy[1] - y0) < 1e-9);
+        assert_true(fabs(tb.pose.tx - ta.pose.tx - 25) < 1e-9);
+    }
+    mb_pose bad = {NAN, 10, 1, 0};
+    assert_int_equal(mb_synth_make_at(g, 0, 0, MB_SYNTH_NONE, &bad, &b, NULL),
+                     MB_EINVAL);
+    bad.tx = 100;
+    assert_int_equal(mb_synth_make_at(g, 0, 0, MB_SYNTH_CUT, &bad, &b, NULL),
+                     MB_EINVAL);
+    assert_int_equal(mb_synth_make_at(g, 0, 0, MB_SYNTH_NONE, NULL, &b, NULL),
+                     MB_EINVAL);
+    /* wholly outside the frame: present, not in view, nothing drawn */
+    bad.tx = -1000;
+    mb_synth_truth t;
+    assert_int_equal(mb_synth_make_at(g, 0, 0, MB_SYNTH_NONE, &bad, &b, &t),
+                     0);
+    assert_true(t.present);
+    assert_false(t.in_view);
+    double cx, cy;
+    long n;
+    dark_centroid(&b, &cx, &cy, &n);
+    assert_int_equal(n, 0);
+    mb_image_free(&a);
+    mb_image_free(&b);
+    mb_synth_close(g);
+}
+
 static void test_bad_configs(void **state)
 {
     (void)state;
@@ -351,6 +414,7 @@ int main(void)
         cmocka_unit_test(test_defects_stay_with_their_part),
         cmocka_unit_test(test_pacing_and_timeout),
         cmocka_unit_test(test_drop_late_and_max_frames),
+        cmocka_unit_test(test_make_at_matches_make),
         cmocka_unit_test(test_bad_configs),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -215,7 +215,7 @@ static void test_handshake(void **state)
     station_init(&s);
     s.fo.reject_every = 3;
     s.fo.fault_at = 5;
-    s.fo.inspect_ms = 30;
+    s.fo.inspect_ms = 50;
     station_start(&s);
     modbus_t *c = client(s.port);
     uint16_t hr[16];
@@ -236,7 +236,7 @@ static void test_handshake(void **state)
         }
         if (!valid)
             fail_msg("part %d: no result within 2 s (status 0x%x)", k, hr[1]);
-        /* 30 ms of inspection, read back to back: busy must show */
+        /* 50 ms of inspection, read back to back: busy must show */
         assert_true(busy_seen);
         assert_int_equal(hr[1] & MB_PLC_ST_BUSY, 0);
         uint8_t coils[3];

@@ -5,7 +5,11 @@
  * libv4l2 (v4l-utils 1.22, lib/libv4l2/v4l2-plugin.c) finds its plugins
  * with glob(LIBV4L2_PLUGIN_DIR "/" "*.so") each time it opens a device; on
  * Debian the compiled-in folder is /usr/lib/x86_64-linux-gnu/libv4l/plugins
- * and the call goes through the PLT of the shared libv4l2.so.0. A glob()
+ * and the call goes through the PLT of the shared libv4l2.so.0 (checked on
+ * Debian 12's libv4l-0 1.22.1: `nm -D` lists "U glob@GLIBC_2.27" and
+ * `strings` the pattern "/usr/lib/x86_64-linux-gnu/libv4l/plugins/" "*.so";
+ * each .so found is dlopen()ed and its libv4l2_plugin->init(fd) asked in
+ * turn, the first non-NULL answer claiming the fd). A glob()
  * defined in the test program (exported with -rdynamic) or in a library
  * given in LD_PRELOAD comes first in the symbol lookup, so this one sees
  * the call: when the pattern ends in "/libv4l/plugins/" "*.so" and
