@@ -1096,8 +1096,21 @@ int mb_calib_estimate(const mb_calib_problem *prob,
     memcpy(obs, prob->image_xy, sizeof *obs * m);
     c.coverage = hull_area(obs, M.nobs, hull) /
                  ((double)prob->width * prob->height);
-    if ((rc = mb_calib_validate(&c, err)) < 0)
-        goto fail;
+    {
+        char why[MB_ERR_LEN];
+        if ((rc = mb_calib_validate(&c, why)) < 0) {
+            /* "calibration: " starts why; keep the rest. */
+            const char *w = strncmp(why, "calibration: ", 13) ? why : why + 13;
+            mb_err_set(err, rc,
+                       "calibration: the fitted model is not usable (%s; "
+                       "reprojection RMS %.3f px): the frames do not fit one "
+                       "flat plane seen through one lens. Check that the "
+                       "target lay flat and the camera did not move, or add "
+                       "frames with the target near the corners",
+                       w, c.rms_px);
+            goto fail;
+        }
+    }
     *out = c;
     rc = MB_OK;
 fail:

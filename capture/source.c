@@ -30,8 +30,9 @@ int mb_source_create(const mb_source_ops *ops, void *impl, mb_source **out,
     if (!ops || !ops->next || !ops->close || !out) {
         if (ops && ops->close && impl)
             ops->close(impl);
-        return mb_err_set(err, MB_EINVAL, "frame source: incomplete "
-                                          "function table");
+        return mb_err_set(err, MB_EINVAL,
+                          "frame source: incomplete "
+                          "function table");
     }
     mb_source *s = calloc(1, sizeof *s);
     if (!s) {
@@ -63,8 +64,9 @@ static uint64_t map_seq(mb_source *s, uint64_t raw)
 int mb_source_next(mb_source *src, int timeout_ms, mb_frame *out, char *err)
 {
     if (!src || !out)
-        return mb_err_set(err, MB_EINVAL, "frame source: no source or no "
-                                          "frame given");
+        return mb_err_set(err, MB_EINVAL,
+                          "frame source: no source or no "
+                          "frame given");
     memset(out, 0, sizeof *out);
     if (src->gone) {
         src->stats.faults++;
@@ -164,8 +166,7 @@ static void sleep_to(int64_t t_ns)
 {
     struct timespec ts = {(time_t)(t_ns / 1000000000),
                           (long)(t_ns % 1000000000)};
-    while (clock_nanosleep(CLOCK_MONOTONIC, TIMER_ABSTIME, &ts, NULL) ==
-           EINTR)
+    while (clock_nanosleep(CLOCK_MONOTONIC, TIMER_ABSTIME, &ts, NULL) == EINTR)
         ;
 }
 

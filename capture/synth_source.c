@@ -25,11 +25,11 @@ typedef struct {
     mb_synth_source_config cfg;
     mb_synth *g;
     mb_image frame;
-    double radius;      /* R, px */
-    double pitch;       /* px */
-    double y_lo, y_hi;  /* range of the lateral position, px */
-    int64_t t0;         /* CLOCK_MONOTONIC of frame 0, ns */
-    int started;        /* t0 is set */
+    double radius;     /* R, px */
+    double pitch;      /* px */
+    double y_lo, y_hi; /* range of the lateral position, px */
+    int64_t t0;        /* CLOCK_MONOTONIC of frame 0, ns */
+    int started;       /* t0 is set */
     uint64_t next_k;
     int have_truth;
     mb_synth_source_truth truth;
@@ -73,8 +73,8 @@ static int render(synth_src *s, uint64_t k)
     t->frame = k;
     if (x >= c->width + s->radius) {
         t->part = -1;
-        return mb_synth_make(s->g, GAP_INDEX | k, 0, MB_SYNTH_EMPTY,
-                             &s->frame, &t->truth);
+        return mb_synth_make(s->g, GAP_INDEX | k, 0, MB_SYNTH_EMPTY, &s->frame,
+                             &t->truth);
     }
     /* how many frames slot j was in the field before this one */
     double first = ceil((double)j * s->pitch / s->cfg.speed_px - 1e-9);
@@ -150,8 +150,7 @@ static void synth_close(void *impl)
     free(s);
 }
 
-static const mb_source_ops synth_ops = {"synth", synth_next, NULL,
-                                        synth_close};
+static const mb_source_ops synth_ops = {"synth", synth_next, NULL, synth_close};
 
 /* R from the nominal part: the farthest outline point from the part
    origin, 20 % more for variation and defects that change size, 2 mm for
@@ -171,8 +170,9 @@ static int measure_radius(synth_src *s, char *err)
     rc = mb_synth_make(probe, 0, 0, MB_SYNTH_NONE, &s->frame, &t);
     if (rc < 0) {
         mb_synth_close(probe);
-        return mb_err_set(err, rc, "synthetic line: the nominal part could "
-                                   "not be made");
+        return mb_err_set(err, rc,
+                          "synthetic line: the nominal part could "
+                          "not be made");
     }
     double r0 = 0;
     int n = 0;

@@ -38,14 +38,14 @@ mb_source_next and is
 typedef struct {
     mb_synth_config synth; /**< the generator: family, frame size, scale,
                                 lighting, noise, defect rate, seed */
-    double speed_px; /**< belt travel per frame, px (> 0); default 60 */
-    double pitch_px; /**< distance between parts on the belt, px; 0 (the
-                          default) = frame width + 2 R, one part in view at
-                          a time; smaller values are refused when they would
-                          put two parts in view */
-    double fps;      /**< frames per second; 0 (default) = as fast as asked */
-    int drop_late;   /**< with fps > 0: skip to the latest due frame when the
-                          caller falls behind; default 0 */
+    double speed_px;       /**< belt travel per frame, px (> 0); default 60 */
+    double pitch_px;       /**< distance between parts on the belt, px;
+                                0 (default): frame width + 2 R, one part in
+                                view at a time; less is refused (two parts
+                                would be in view) */
+    double fps;    /**< frames per second; 0 (default) = as fast as asked */
+    int drop_late; /**< with fps > 0: skip to the latest due frame when the
+                        caller falls behind; default 0 */
     uint64_t max_frames; /**< after this many frames mb_source_next returns
                               MB_ENOTFOUND; 0 (default) = endless */
 } mb_synth_source_config;
@@ -71,8 +71,8 @@ void mb_synth_source_config_default(mb_synth_source_config *cfg,
  * Return value: 0; MB_EINVAL (a field out of range: the sentence names
  * it); MB_ERANGE (the part does not fit the frame); MB_ENOMEM.
  */
-int mb_synth_source_open(const mb_synth_source_config *cfg,
-                         mb_source **out, char *err);
+int mb_synth_source_open(const mb_synth_source_config *cfg, mb_source **out,
+                         char *err);
 
 /**
  * The ground truth of the frame last handed out by a synthetic source;

@@ -77,8 +77,7 @@ static void fourcc_str(uint32_t f, char s[5])
     s[4] = '\0';
 }
 
-static void copy_cap_string(char *dst, size_t n, const __u8 *src,
-                            size_t src_n)
+static void copy_cap_string(char *dst, size_t n, const __u8 *src, size_t src_n)
 {
     size_t i = 0;
     for (; i + 1 < n && i < src_n && src[i]; i++)
@@ -94,10 +93,9 @@ static int64_t now_ns(void)
 /* ---- controls */
 
 /* Set one control after checking it exists and the value is in range;
-   *readback gets what the camera reports afterwards. */
-static int set_control(cam *c, uint32_t id, const char *what,
-                       const char *field, int value, int *readback,
-                       char *err)
+ *readback gets what the camera reports afterwards. */
+static int set_control(cam *c, uint32_t id, const char *what, const char *field,
+                       int value, int *readback, char *err)
 {
     struct v4l2_queryctrl q;
     memset(&q, 0, sizeof q);
@@ -105,8 +103,8 @@ static int set_control(cam *c, uint32_t id, const char *what,
     if (xioctl(c->fd, VIDIOC_QUERYCTRL, &q) < 0) {
         if (gone_errno(errno))
             return mb_err_set(err, MB_ENODEV,
-                              "camera %s went away while querying %s",
-                              c->path, what);
+                              "camera %s went away while querying %s", c->path,
+                              what);
         return mb_err_set(err, MB_EINVAL,
                           "camera %s has no %s control; leave %s unset for "
                           "this camera",
@@ -150,9 +148,9 @@ static int set_controls(cam *c, char *err)
         q.id = V4L2_CID_EXPOSURE_AUTO;
         if (xioctl(c->fd, VIDIOC_QUERYCTRL, &q) == 0 &&
             !(q.flags & V4L2_CTRL_FLAG_DISABLED)) {
-            int rc = set_control(c, V4L2_CID_EXPOSURE_AUTO,
-                                 "automatic exposure", "exposure_us",
-                                 V4L2_EXPOSURE_MANUAL, NULL, err);
+            int rc =
+                set_control(c, V4L2_CID_EXPOSURE_AUTO, "automatic exposure",
+                            "exposure_us", V4L2_EXPOSURE_MANUAL, NULL, err);
             if (rc < 0)
                 return rc;
         }
@@ -248,8 +246,7 @@ static int negotiate(cam *c, char *err)
             fourcc_str(f.fmt.pix.pixelformat, b);
             size_t len = strlen(other);
             snprintf(other + len, sizeof other - len, "%s%s -> %s %ux%u",
-                     len ? ", " : "", a, b, f.fmt.pix.width,
-                     f.fmt.pix.height);
+                     len ? ", " : "", a, b, f.fmt.pix.width, f.fmt.pix.height);
             if (f.fmt.pix.pixelformat == pref[p])
                 other_size = 1;
             continue;
@@ -360,9 +357,8 @@ static int start_streaming(cam *c, char *err)
                           "camera %s: requesting %d mmap buffers failed: %s",
                           c->path, c->cfg.buffers, strerror(errno));
     if (req.count < 2)
-        return mb_err_set(err, MB_EIO,
-                          "camera %s granted only %u mmap buffers", c->path,
-                          req.count);
+        return mb_err_set(err, MB_EIO, "camera %s granted only %u mmap buffers",
+                          c->path, req.count);
     c->n_buf =
         req.count > MB_V4L2_MAX_BUFFERS ? MB_V4L2_MAX_BUFFERS : (int)req.count;
     c->info.buffers = c->n_buf;
@@ -381,8 +377,8 @@ static int start_streaming(cam *c, char *err)
                               "camera %s: buffer %d holds %u bytes, a frame "
                               "needs %zu",
                               c->path, i, b.length, c->min_bytes);
-        void *p = v4l2_mmap(NULL, b.length, PROT_READ | PROT_WRITE,
-                            MAP_SHARED, c->fd, (int64_t)b.m.offset);
+        void *p = v4l2_mmap(NULL, b.length, PROT_READ | PROT_WRITE, MAP_SHARED,
+                            c->fd, (int64_t)b.m.offset);
         if (p == MAP_FAILED)
             return mb_err_set(err, dev_code(errno),
                               "camera %s: mapping buffer %d failed: %s",
@@ -404,8 +400,8 @@ static int start_streaming(cam *c, char *err)
     enum v4l2_buf_type type = V4L2_BUF_TYPE_VIDEO_CAPTURE;
     if (xioctl(c->fd, VIDIOC_STREAMON, &type) < 0)
         return mb_err_set(err, dev_code(errno),
-                          "camera %s: starting the stream failed: %s",
-                          c->path, strerror(errno));
+                          "camera %s: starting the stream failed: %s", c->path,
+                          strerror(errno));
     return 0;
 }
 
@@ -465,8 +461,8 @@ static int open_device(cam *c, int again, char *err)
         (c->luma.width != c->info.width || c->luma.height != c->info.height)) {
         mb_image_free(&c->luma);
         if (mb_image_alloc(c->info.width, c->info.height, &c->luma) < 0) {
-            rc = mb_err_set(err, MB_ENOMEM, "camera %s: out of memory",
-                            c->path);
+            rc =
+                mb_err_set(err, MB_ENOMEM, "camera %s: out of memory", c->path);
             goto fail;
         }
     }
@@ -567,9 +563,8 @@ static int cam_next(void *impl, int timeout_ms, mb_frame *out,
             continue;
         }
         if ((int)b.index < 0 || (int)b.index >= c->n_buf)
-            return mb_err_set(err, MB_EIO,
-                              "camera %s returned buffer %u of %d", c->path,
-                              b.index, c->n_buf);
+            return mb_err_set(err, MB_EIO, "camera %s returned buffer %u of %d",
+                              c->path, b.index, c->n_buf);
         if ((b.flags & V4L2_BUF_FLAG_ERROR) || b.bytesused < c->min_bytes) {
             stats->bad++;
             int rc = requeue(c, (int)b.index, err);
@@ -623,8 +618,7 @@ static void cam_close(void *impl)
     free(c);
 }
 
-static const mb_source_ops cam_ops = {"v4l2", cam_next, cam_reopen,
-                                      cam_close};
+static const mb_source_ops cam_ops = {"v4l2", cam_next, cam_reopen, cam_close};
 
 void mb_v4l2_config_default(mb_v4l2_config *cfg)
 {

@@ -55,29 +55,29 @@
 #define MB_V4L2_MAX_BUFFERS 32
 
 typedef struct {
-    const char *path; /**< device node, e.g. "/dev/v4l/by-id/usb-...-video-
-                           index0"; copied at open */
+    const char *path;  /**< device node, e.g. "/dev/v4l/by-id/usb-...-video-
+                            index0"; copied at open */
     int width, height; /**< frame size, px; 0 and 0 keep the camera's
                             current size; default 1280 x 1024 */
-    int exposure_us; /**< > 0: manual exposure, us (rounded to the camera's
-                          100 us unit, at least one unit); 0: leave the
-                          camera's exposure alone; default 0 */
-    int gain;        /**< >= 0: V4L2_CID_GAIN in the camera's own units;
-                          -1: leave it; default -1 */
-    int buffers;     /**< mmap buffers to request, 4 .. MB_V4L2_MAX_BUFFERS;
-                          default 4; the driver may grant more */
+    int exposure_us;   /**< > 0: manual exposure, us (rounded to the camera's
+                            100 us unit, at least one unit); 0: leave the
+                            camera's exposure alone; default 0 */
+    int gain;          /**< >= 0: V4L2_CID_GAIN in the camera's own units;
+                            -1: leave it; default -1 */
+    int buffers;       /**< mmap buffers to request, 4 .. MB_V4L2_MAX_BUFFERS;
+                            default 4; the driver may grant more */
 } mb_v4l2_config;
 
 /** What was negotiated. */
 typedef struct {
-    uint32_t fourcc;   /**< V4L2_PIX_FMT_GREY, _YUYV, _YUV420 or _YVU420 */
-    int emulated;      /**< 1 when libv4lconvert converts to fourcc */
-    int width, height; /**< px */
-    int stride;        /**< bytes per row of the frames handed out */
-    int buffers;       /**< mmap buffers granted */
+    uint32_t fourcc;    /**< V4L2_PIX_FMT_GREY, _YUYV, _YUV420 or _YVU420 */
+    int emulated;       /**< 1 when libv4lconvert converts to fourcc */
+    int width, height;  /**< px */
+    int stride;         /**< bytes per row of the frames handed out */
+    int buffers;        /**< mmap buffers granted */
     int exposure_100us; /**< V4L2_CID_EXPOSURE_ABSOLUTE read back; -1 when
                              not set */
-    int gain;          /**< V4L2_CID_GAIN read back; -1 when not set */
+    int gain;           /**< V4L2_CID_GAIN read back; -1 when not set */
     char driver[16], card[32], bus_info[32]; /**< from VIDIOC_QUERYCAP */
 } mb_v4l2_info;
 

@@ -458,17 +458,25 @@ static double select_kth(double *v, int n, int kth)
    itself when measuring an edge. */
 #define SIDE 0.75
 
+/* The edge is first looked for within +-NEAR_RANGE px (where nearly every
+   edge of a good part is), then, only when none is there, within the whole
+   refine_range: the same answer as one search of the whole range (the
+   edge nearest the model point wins either way, and everything read around
+   it lies inside the short window too), at two thirds of the samples. */
+#define NEAR_RANGE 3
+
 /*
  * Sub-pixel edge along one normal at full resolution, from the mean of the
- * grey profiles on the normal and on two lines SIDE px either side of it.
- * Returns 1, the signed position *t_out (px along the normal from the model
- * point) and *ratio (edge strength over contrast, for the blur estimate)
- * when an edge of the taught polarity is found, else 0.
+ * grey profiles on the normal and on two lines SIDE px either side of it,
+ * within +-r px (r <= refine_range). Returns 1, the signed position *t_out
+ * (px along the normal from the model point) and *ratio (edge strength
+ * over contrast, for the blur estimate) when an edge of the taught polarity
+ * is found, else 0.
  */
-static int edge_along(mb_asm *a, const mb_image *img, double x, double y,
-                      double nx, double ny, double *t_out, double *ratio)
+static int edge_within(mb_asm *a, const mb_image *img, double x, double y,
+                       double nx, double ny, int r, double *t_out, double *ratio)
 {
-    const int r = a->p.refine_range, m = 2 * (r + 6) + 1, c = r + 6;
+    const int m = 2 * (r + 6) + 1, c = r + 6;
     double *gr = a->grey, *dv = a->diff;
     const double tx = -ny * SIDE, ty = nx * SIDE;
     for (int j = 0; j < m; j++) {
@@ -516,6 +524,16 @@ static int edge_along(mb_asm *a, const mb_image *img, double x, double y,
     *t_out = (found - c) + f;
     *ratio = dv[best] / fabs(hi - lo);
     return 1;
+}
+
+/* The edge along one normal within refine_range (see NEAR_RANGE). */
+static int edge_along(mb_asm *a, const mb_image *img, double x, double y,
+                      double nx, double ny, double *t_out, double *ratio)
+{
+    const int r = a->p.refine_range;
+    if (r > NEAR_RANGE && edge_within(a, img, x, y, nx, ny, NEAR_RANGE, t_out, ratio))
+        return 1;
+    return edge_within(a, img, x, y, nx, ny, r, t_out, ratio);
 }
 
 /* Blur sigma (px) of a Gaussian-blurred step whose central difference

@@ -43,6 +43,9 @@ typedef struct {
     double nominal;       /**< mm (mm^2 for AREA) */
     double tol_lo, tol_hi;/**< accepted: nominal + tol_lo .. nominal + tol_hi
                                (tol_lo <= 0 <= tol_hi) */
+    double taught_mean;   /**< mean over the good parts taught (mm); 0 when
+                               not taught */
+    double taught_sd;     /**< their standard deviation (mm); 0 when not */
 } mb_gauge_def;
 
 typedef struct {

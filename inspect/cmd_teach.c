@@ -10,6 +10,7 @@
  */
 #include "bands.h"
 #include "cli.h"
+#include "gauges.h"
 #include "commands.h"
 #include "error.h"
 #include "file_list.h"
@@ -17,6 +18,7 @@
 #include "points_file.h"
 #include "shape_model.h"
 #include "stats.h"
+#include "part_sections.h"
 #include "teach_images.h"
 #include "teach_report.h"
 
@@ -32,6 +34,7 @@ static const char *const teach_help =
     "usage: modeband teach --images DIR --out MODEL [--mm-per-px F]\n"
     "                      [--variance F | --modes K] [--points N]\n"
     "                      [--alpha F] [--keep-outliers] [--name TEXT]\n"
+    "                      [--gauges FILE]\n"
     "                      [--report FILE]\n"
     "       modeband teach --points DIR --out MODEL [--variance F | --modes K]\n"
     "                      [--source TEXT] [--report FILE]\n"
@@ -50,6 +53,12 @@ static const char *const teach_help =
     "  --keep-outliers keep training parts that look unusual (default: they\n"
     "                  are listed and left out)\n"
     "  --name TEXT     part name stored in the model (default: the folder)\n"
+    "  --gauges FILE   drawing gauges to check, in mm (needs --mm-per-px):\n"
+    "                  {\"format\":\"modeband-gauges\",\"version\":1,\"gauges\":\n"
+    "                  [{\"name\",\"kind\",\"outline\",\"nominal_mm\",\n"
+    "                  \"tol_lo_mm\",\"tol_hi_mm\"}]}; kinds: diameter,\n"
+    "                  width-min, width-max, spacing (with outline_b), length,\n"
+    "                  area; outline 0 = outer edge, 1.. = holes (largest first)\n"
     "  --points DIR    folder of landmark files, one good part per file:\n"
     "                  *.json {\"format\":\"modeband-points\",\"version\":1,\n"
     "                  \"outlines\":[[[x,y],...], ...]} or *.csv lines\n"
@@ -443,6 +452,17 @@ static int teach_from_images(const char *dir, const char *out,
     if (tp->mm_per_px > 0)
         printf("  size band in mm (RMS radius): %.3f .. %.3f mm\n",
                pm.limits.size_lo * tp->mm_per_px, pm.limits.size_hi * tp->mm_per_px);
+    for (int g = 0; g < pm.n_gauges; g++) {
+        const mb_gauge_def *gd = &pm.gauges[g];
+        double lo = gd->nominal + gd->tol_lo, hi = gd->nominal + gd->tol_hi;
+        double s = gd->taught_sd;
+        double cp = s > 0 ? (hi - lo) / (6 * s) : 0;
+        double cpk = s > 0 ? fmin(hi - gd->taught_mean, gd->taught_mean - lo) / (3 * s) : 0;
+        printf("  gauge %s (%s, outline %d): drawing %.3f %+.3f/%+.3f mm; taught "
+               "mean %.3f mm, sd %.4f mm (Cp %.2f, Cpk %.2f)\n", gd->name,
+               mb_gauge_kind_name(gd->kind), gd->a, gd->nominal, gd->tol_hi,
+               gd->tol_lo, gd->taught_mean, gd->taught_sd, cp, cpk);
+    }
     if (log.n_used < MB_TEACH_GOOD_IMAGES)
         printf("warning: only %d good parts were usable; %d or more are "
                "advised for stable limits\n", log.n_used, MB_TEACH_GOOD_IMAGES);
@@ -466,7 +486,7 @@ static int teach_from_images(const char *dir, const char *out,
 int mb_cmd_teach(int argc, char **argv)
 {
     const char *points = NULL, *images = NULL, *out = NULL, *source = NULL,
-               *report = NULL, *name = NULL;
+               *report = NULL, *name = NULL, *gauges = NULL;
     double variance = 0.98, mm_per_px = 0.0, alpha = 0.002;
     int modes = 0, seen_var = 0, seen_modes = 0, help = 0, npos = 0;
     int budget = 256, keep = 0, seen_mm = 0;
@@ -485,6 +505,7 @@ int mb_cmd_teach(int argc, char **argv)
         {"alpha", MB_OPT_DOUBLE, &alpha, NULL},
         {"keep-outliers", MB_OPT_FLAG, &keep, NULL},
         {"name", MB_OPT_STRING, &name, NULL},
+        {"gauges", MB_OPT_STRING, &gauges, NULL},
     };
     if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], pos, 0,
                      &npos, &help, err) < 0)
@@ -532,5 +553,13 @@ int mb_cmd_teach(int argc, char **argv)
     tp.bands.alpha = alpha;
     tp.name = name;
     tp.progress = isatty(STDERR_FILENO) ? stderr : NULL;
+    mb_gauge_def defs[MB_MAX_GAUGES];
+    if (gauges) {
+        if (!(mm_per_px > 0))
+            return mb_cli_usage_error("teach", "--gauges needs --mm-per-px (gauges are in mm)");
+        if (mb_gauges_load(gauges, defs, &tp.n_gauges, err) < 0)
+            return mb_cli_fail("teach", err);
+        tp.gauges = defs;
+    }
     return teach_from_images(images, out, &tp, report);
 }

@@ -19,8 +19,10 @@ echo
 family=${MB_DEMO_FAMILY:-flange}
 echo "== 2. teach the $family gasket from 30 synthetic good frames =="
 "$bin" synth --family "$family" --count 30 --seed 11 --out "$out/good" >/dev/null
+gauges=""
+[ -f "tests/data/gauges/$family.json" ] && gauges="--gauges tests/data/gauges/$family.json"
 "$bin" teach --images "$out/good" --out "$out/$family.model.json" \
-    --mm-per-px 0.1 --name "$family gasket (synthetic demo part)" \
+    --mm-per-px 0.1 --name "$family gasket (synthetic demo part)" $gauges \
     --report "$out/teach-report.html"
 echo
 

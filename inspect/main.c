@@ -18,7 +18,10 @@ static const mb_command commands[] = {
     {"model-info", mb_cmd_model_info, "print the summary of a model file"},
     {"inspect", mb_cmd_inspect, "judge images against a taught model"},
     {"synth", mb_cmd_synth, "write frames of the synthetic production line"},
+    {"target", mb_cmd_target, "write the printable calibration target (SVG)"},
+    {"calibrate", mb_cmd_calibrate, "calibrate px to mm on the conveyor plane"},
     {"plc-sim", mb_cmd_plcsim, "act as a PLC: trigger, read and acknowledge results"},
+    {"report", mb_cmd_report, "summarise the shift logs (terminal, HTML, CSV)"},
 };
 
 static void usage(FILE *f)

@@ -59,8 +59,7 @@ static int replay_next(void *impl, int timeout_ms, mb_frame *out,
     uint64_t k = r->next_k;
     uint64_t n = (uint64_t)r->files.count;
     if (!r->cfg.loop && k >= n)
-        return mb_err_set(err, MB_ENOTFOUND,
-                          "replay: all %llu files played",
+        return mb_err_set(err, MB_ENOTFOUND, "replay: all %llu files played",
                           (unsigned long long)n);
     int64_t t_ns;
     if (r->cfg.fps > 0) {
@@ -110,8 +109,8 @@ static int copy_files(replay *r, const mb_replay_config *cfg, char *err)
             return mb_err_set(err, MB_EINVAL, "replay: file %d is NULL", i);
         struct stat st;
         if (stat(cfg->files[i], &st) != 0 || !S_ISREG(st.st_mode))
-            return mb_err_set(err, MB_ENOTFOUND,
-                              "replay: %s: no such file", cfg->files[i]);
+            return mb_err_set(err, MB_ENOTFOUND, "replay: %s: no such file",
+                              cfg->files[i]);
         r->files.paths[i] = strdup(cfg->files[i]);
         if (!r->files.paths[i])
             return mb_err_set(err, MB_ENOMEM, "replay: out of memory");
@@ -173,8 +172,7 @@ int mb_replay_open(const mb_replay_config *cfg, mb_source **out, char *err)
         rc = mb_file_list_dir(cfg->dir, exts, 2, &r->files, err);
         if (rc == 0 && r->files.count == 0)
             rc = mb_err_set(err, MB_ENOTFOUND,
-                            "replay: %s holds no .pgm or .png file",
-                            cfg->dir);
+                            "replay: %s holds no .pgm or .png file", cfg->dir);
     } else {
         rc = copy_files(r, cfg, err);
     }

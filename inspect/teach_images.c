@@ -339,6 +339,8 @@ static int remeasure(mb_part_model *pm, const mb_teach_params *p,
     }
     if ((rc = mb_inspector_create(pm, &ip, &ins, err)) < 0)
         goto done;
+    double gsum[MB_MAX_GAUGES] = {0}, gsq[MB_MAX_GAUGES] = {0};
+    int gcount[MB_MAX_GAUGES] = {0};
     for (int j = 0; j < m; j++) {
         mb_image img;
         mb_verdict v;
@@ -350,6 +352,12 @@ static int remeasure(mb_part_model *pm, const mb_teach_params *p,
             memcpy(shapes + (size_t)m2 * d, v.corresponded, (size_t)d * sizeof *shapes);
             keep[j] = 1;
             m2++;
+            for (int g = 0; g < v.n_gauges && g < MB_MAX_GAUGES; g++)
+                if (isfinite(v.gauges[g].value)) {
+                    gsum[g] += v.gauges[g].value;
+                    gsq[g] += v.gauges[g].value * v.gauges[g].value;
+                    gcount[g]++;
+                }
         } else if ((rc = add_skip(log, log->used[j],
                                   "the taught model could not be fitted to it "
                                   "(second pass); left out")) < 0) {
@@ -361,6 +369,12 @@ static int remeasure(mb_part_model *pm, const mb_teach_params *p,
     progress(p->progress, m, m, "measuring");
     mb_inspector_close(ins);
     ins = NULL;
+    for (int g = 0; g < pm->n_gauges; g++) {
+        int c = gcount[g];
+        pm->gauges[g].taught_mean = c > 0 ? gsum[g] / c : 0.0;
+        double var = c > 1 ? (gsq[g] - gsum[g] * gsum[g] / c) / (c - 1) : 0.0;
+        pm->gauges[g].taught_sd = var > 0 ? sqrt(var) : 0.0;
+    }
     if (m2 < MB_TEACH_MIN_IMAGES || k > m2 - 2) {
         rc = mb_err_set(err, MB_EDEGENERATE,
                         "only %d of %d parts could be measured the way inspection "
@@ -551,6 +565,21 @@ int mb_teach_images(const char *dir, const mb_teach_params *p,
     pm->imaging.height = h;
     pm->imaging.mm_per_px = p->mm_per_px;
     pm->imaging.dark_part = dark_part;
+    if (p->n_gauges > 0) {
+        int no = mb_shape_model_layout(pm->shape)->n_outlines;
+        for (int g = 0; g < p->n_gauges && g < MB_MAX_GAUGES; g++) {
+            const mb_gauge_def *gd = &p->gauges[g];
+            if (gd->a >= no || (gd->kind == MB_GAUGE_SPACING && gd->b >= no)) {
+                rc = mb_err_set(err, MB_ERANGE,
+                                "gauge %s names outline %d but the part has %d "
+                                "outlines (0 = outer edge, 1..%d holes)", gd->name,
+                                gd->a >= no ? gd->a : gd->b, no, no - 1);
+                goto fail;
+            }
+            pm->gauges[g] = *gd;
+        }
+        pm->n_gauges = p->n_gauges < MB_MAX_GAUGES ? p->n_gauges : MB_MAX_GAUGES;
+    }
     t0 = now_s();
     if ((rc = remeasure(pm, p, log, err)) < 0)
         goto fail;

@@ -25,6 +25,8 @@ typedef struct {
     int keep_outliers;   /**< 1: keep training parts screened as outliers */
     mb_bands_params bands;
     const char *name;    /**< part name stored in the model; may be NULL */
+    int n_gauges;        /**< drawing gauges to store (need mm_per_px) */
+    const mb_gauge_def *gauges;
     FILE *progress;      /**< progress bar target (a terminal) or NULL */
 } mb_teach_params;
 

@@ -31,6 +31,11 @@ struct mb_inspector {
     /* the curve fit (see refit_curve) */
     double *target, *recon, *nrm, *cdist, *fwork, *bfit;
     uint8_t *cvalid;
+    /* the dense samples (see local_at): per landmark, the refit model's
+       offset from the search's along the normal and the limit's corner
+       allowance; per outline, its first dense sample */
+    double *delta, *relax;
+    int *dstart;
     double mean_cx, mean_cy;  /* centroid of the mean shape (model frame) */
     double *mean_angle;       /* n: angle of each landmark on the part, deg */
 };
@@ -83,6 +88,9 @@ void mb_inspector_close(mb_inspector *ins)
     free(ins->fwork);
     free(ins->bfit);
     free(ins->cvalid);
+    free(ins->delta);
+    free(ins->relax);
+    free(ins->dstart);
     free(ins);
 }
 
@@ -137,9 +145,13 @@ int mb_inspector_create(const mb_part_model *pm, const mb_inspect_params *p,
     ins->fwork = malloc((size_t)mb_shape_model_fit_work_size(pm->shape) * sizeof *ins->fwork);
     ins->bfit = malloc((size_t)(ins->k + 1) * sizeof *ins->bfit);
     ins->cvalid = malloc((size_t)ins->n);
+    ins->delta = malloc((size_t)ins->n * sizeof *ins->delta);
+    ins->relax = malloc((size_t)ins->n * sizeof *ins->relax);
+    ins->dstart = malloc((size_t)(l->n_outlines + 1) * sizeof *ins->dstart);
     if (!ins->y || !ins->b || !ins->z || !ins->work || !ins->mm_pts ||
         !ins->mean_angle || !ins->target || !ins->recon || !ins->nrm ||
-        !ins->cdist || !ins->fwork || !ins->bfit || !ins->cvalid) {
+        !ins->cdist || !ins->fwork || !ins->bfit || !ins->cvalid ||
+        !ins->delta || !ins->relax || !ins->dstart) {
         rc = mb_err_set(err, MB_ENOMEM, "out of memory");
         goto fail;
     }
@@ -313,41 +325,195 @@ static void refit_curve(mb_inspector *ins, const mb_asm_result *res,
     }
 }
 
+/*
+ * Between landmarks. Landmarks are 5-9 px apart, so a tear 3-5 px wide or a
+ * fibre of dirt across the edge can lie between two of them unseen; the
+ * search also measures the edge densely, about every px along the model
+ * outline (fit/asm.h: dense_*). A dense sample between landmarks i and j
+ * (fraction f) is judged like a landmark:
+ *   - its distance is taken from the refit model (refit_curve), not the
+ *     search's: the two differ along landmark i's normal by
+ *     delta_i = (recon_i - model_i) . n_i, interpolated linearly;
+ *   - its limit is the landmarks' local limits interpolated linearly, plus
+ *     a corner allowance: the model outline between landmarks is a cubic
+ *     through them (fit/asm.h), exact to a hundredth of a px on arcs, but
+ *     at a sharp corner (a cut end, a lip tip) it rounds the corner in its
+ *     own way, by up to about L theta / 8 for a chord of L px turning by
+ *     theta radians at its ends; the allowance is CORNER_RELAX L theta with
+ *     theta the larger turn at i and j, counted only beyond CORNER_FREE
+ *     radians, so the smooth arcs and straight sides keep their limits;
+ *   - its f = 0 sample is landmark i itself, judged by its curve distance
+ *     cdist as before; and a run of DENSE_GAP_RUN dense samples without an
+ *     edge is a gap.
+ * The outline is then one sequence of samples, in order along it: the
+ * dense samples when there are any, else the landmarks.
+ */
+#define CORNER_RELAX 0.125
+#define CORNER_FREE 0.35
+#define DENSE_GAP_RUN 2
+
+/* Per landmark interval: delta and the corner allowance; per outline:
+   where its dense samples start (dstart[n_outlines] = dense_n). */
+static void dense_prepare(mb_inspector *ins, const mb_asm_result *res,
+                          const mb_layout *l)
+{
+    const double *m = res->model_xy, *nm = res->normal_xy, *q = ins->recon;
+    for (int j = 0; j < ins->n; j++)
+        ins->delta[j] = (q[2 * j] - m[2 * j]) * nm[2 * j] +
+                        (q[2 * j + 1] - m[2 * j + 1]) * nm[2 * j + 1];
+    int first = 0, s = 0;
+    for (int o = 0; o < l->n_outlines; o++) {
+        int c = l->counts[o];
+        for (int t = 0; t < c; t++) {
+            /* turn at landmark t and at the next, from the refit model */
+            double turn[2];
+            for (int e = 0; e < 2; e++) {
+                int i = first + (t + e) % c, h = first + (t + e + c - 1) % c;
+                int j = first + (t + e + 1) % c;
+                double ax = q[2 * i] - q[2 * h], ay = q[2 * i + 1] - q[2 * h + 1];
+                double bx = q[2 * j] - q[2 * i], by = q[2 * j + 1] - q[2 * i + 1];
+                turn[e] = fabs(atan2(ax * by - ay * bx, ax * bx + ay * by));
+            }
+            int i = first + t, j = first + (t + 1) % c;
+            double len = hypot(q[2 * j] - q[2 * i], q[2 * j + 1] - q[2 * i + 1]);
+            double th = fmax(turn[0], turn[1]) - CORNER_FREE;
+            ins->relax[i] = th > 0 ? CORNER_RELAX * len * th : 0.0;
+        }
+        ins->dstart[o] = s;
+        while (s < res->dense_n && res->dense_seg[s] < first + c)
+            s++;
+        first += c;
+    }
+    ins->dstart[l->n_outlines] = s;
+}
+
+/* Sample s of outline o's sequence (landmark first + s without dense
+   samples, else dense sample dstart[o] + s): signed distance to the
+   refit model, its limit, whether an edge was found (edge) and whether it
+   can be judged (curve: for a landmark, that its curve distance exists). */
+typedef struct {
+    double dist, limit;
+    int edge, judged;
+    int seg;     /* landmark i */
+    double frac; /* of the way to the next landmark */
+} local_sample;
+
+static local_sample local_at(const mb_inspector *ins, const mb_asm_result *res,
+                             const mb_layout *l, int o, int first, int s)
+{
+    const double *lim = ins->pm->limits.local_limit;
+    local_sample r;
+    int c = l->counts[o];
+    if (res->dense_n == 0) {
+        int i = first + s;
+        r.seg = i;
+        r.frac = 0.0;
+        r.dist = ins->cdist[i];
+        r.limit = lim[i];
+        r.edge = res->valid[i];
+        r.judged = ins->cvalid[i];
+        return r;
+    }
+    int k = ins->dstart[o] + s, i = res->dense_seg[k];
+    int j = first + (i - first + 1) % c;
+    double f = res->dense_frac[k];
+    r.seg = i;
+    r.frac = f;
+    if (f == 0.0) {
+        r.dist = ins->cdist[i];
+        r.limit = lim[i];
+        r.edge = res->valid[i];
+        r.judged = ins->cvalid[i];
+        return r;
+    }
+    r.dist = res->dense_dist[k] - ((1.0 - f) * ins->delta[i] + f * ins->delta[j]);
+    r.limit = (1.0 - f) * lim[i] + f * lim[j] + ins->relax[i];
+    r.edge = r.judged = res->dense_valid[k];
+    return r;
+}
+
+/* Where sample s of outline o lies: fraction along the outline, angle on
+   the part, image point (measured when measured, else the model's). */
+static void local_where(const mb_inspector *ins, const mb_asm_result *res,
+                        const mb_layout *l, int o, int first, int s,
+                        mb_reason *r)
+{
+    int c = l->counts[o];
+    local_sample ls = local_at(ins, res, l, o, first, s);
+    int i = ls.seg, j = first + (i - first + 1) % c;
+    double f = ls.frac;
+    r->position = ((double)(i - first) + f) / c;
+    double a = ins->mean_angle[i] + f * remainder(ins->mean_angle[j] - ins->mean_angle[i], 360.0);
+    r->angle_deg = a < 0 ? a + 360.0 : a >= 360.0 ? a - 360.0 : a;
+    if (f == 0.0) {
+        r->x = ls.judged ? ins->target[2 * i] : ins->recon[2 * i];
+        r->y = ls.judged ? ins->target[2 * i + 1] : ins->recon[2 * i + 1];
+    } else {
+        int k = ins->dstart[o] + s;
+        double t = res->dense_valid[k] ? res->dense_dist[k] : 0.0;
+        r->x = res->dense_xy[2 * k] + t * res->dense_normal[2 * k];
+        r->y = res->dense_xy[2 * k + 1] + t * res->dense_normal[2 * k + 1];
+    }
+}
+
 /* Local deviations and gaps, worst first per outline and sign. */
 static void judge_local(mb_inspector *ins, const mb_asm_result *res,
                         mb_verdict *v)
 {
     const mb_layout *l = mb_shape_model_layout(ins->pm->shape);
-    const double *lim = ins->pm->limits.local_limit;
     double mm = ins->p.mm_per_px > 0 ? ins->p.mm_per_px : 1.0;
     const char *unit = ins->p.mm_per_px > 0 ? "mm" : "px";
+    const int dense = res->dense_n > 0;
+    if (dense)
+        dense_prepare(ins, res, l);
     int first = 0;
     for (int o = 0; o < l->n_outlines; o++) {
         int c = l->counts[o];
+        /* samples of this outline: landmarks, or dense samples */
+        int ns = dense ? ins->dstart[o + 1] - ins->dstart[o] : c;
         double len = mb_gauge_length(ins->target + 2 * first, c) * mm;
+        double step = ns > 0 ? len / ns : 0.0; /* length per sample */
         char oname[32];
         outline_name(o, oname, sizeof oname);
-        /* gaps: runs of landmarks without an edge */
-        int run = 0, best_run = 0, best_end = 0;
-        for (int t = 0; t < 2 * c; t++) { /* twice round: runs across 0 */
-            int j = first + t % c;
-            run = res->valid[j] ? 0 : run + 1;
-            if (run > best_run && run <= c) {
-                best_run = run;
-                best_end = t % c;
-            }
+        if (ns < 1) {
+            first += c;
+            continue;
         }
-        if (best_run >= ins->p.gap_run) {
-            int mid = first + ((best_end - best_run / 2) % c + c) % c;
-            mb_reason *r = add_reason(v, MB_REASON_GAP, best_run * len / c, 0);
+        /* gaps: runs of landmarks (at least gap_run) or of dense samples
+           (at least DENSE_GAP_RUN) without an edge */
+        int lrun = 0, run = 0, best_run = 0, best_end = 0;
+        for (int t = 0; t < 2 * c; t++) { /* twice round: runs across 0 */
+            lrun = res->valid[first + t % c] ? 0 : lrun + 1;
+            if (lrun > best_run && lrun <= c)
+                best_run = lrun;
+        }
+        int gap = best_run >= ins->p.gap_run;
+        if (dense || gap) {
+            /* located on the sample sequence */
+            int dbest = 0;
+            for (int t = 0; t < 2 * ns; t++) {
+                run = local_at(ins, res, l, o, first, t % ns).edge ? 0 : run + 1;
+                if (run > dbest && run <= ns) {
+                    dbest = run;
+                    best_end = t % ns;
+                }
+            }
+            gap = gap || (dense && dbest >= DENSE_GAP_RUN);
+            best_run = dbest;
+        }
+        if (gap) {
+            int mid = ((best_end - best_run / 2) % ns + ns) % ns;
+            mb_reason *r = add_reason(v, MB_REASON_GAP, best_run * step, 0);
             if (r) {
                 r->outline = o;
-                r->position = (double)(mid - first) / c;
+                local_where(ins, res, l, o, first, mid, r);
+                local_sample ls = local_at(ins, res, l, o, first, mid);
+                if (ls.frac == 0.0) { /* the model's point: no edge there */
+                    r->x = ins->recon[2 * ls.seg];
+                    r->y = ins->recon[2 * ls.seg + 1];
+                }
                 r->position_mm = r->position * len;
-                r->angle_deg = ins->mean_angle[mid];
-                r->x = ins->recon[2 * mid];
-                r->y = ins->recon[2 * mid + 1];
-                r->extent_mm = best_run * len / c;
+                r->extent_mm = best_run * step;
                 snprintf(r->text, sizeof r->text,
                          "edge missing on %s over %.2f %s at %.0f deg (%.0f %% "
                          "along): torn or missing material", oname,
@@ -358,51 +524,48 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
         for (int sign = -1; sign <= 1; sign += 2) {
             int worst = -1;
             double wr = 1.0;
-            for (int t = 0; t < c; t++) {
-                int j = first + t;
-                if (!ins->cvalid[j] || ins->cdist[j] * sign <= 0)
+            local_sample w = {0};
+            for (int t = 0; t < ns; t++) {
+                local_sample ls = local_at(ins, res, l, o, first, t);
+                if (!ls.judged || ls.dist * sign <= 0)
                     continue;
-                double ratio = fabs(ins->cdist[j]) / lim[j];
+                double ratio = fabs(ls.dist) / ls.limit;
                 if (ratio > wr) {
                     wr = ratio;
-                    worst = j;
+                    worst = t;
+                    w = ls;
                 }
             }
             if (worst < 0)
                 continue;
             int ext = 1;
-            for (int s = 1; s < c; s++) {
-                int j = first + (worst - first + s) % c;
-                if (!ins->cvalid[j] || ins->cdist[j] * sign <= 0 ||
-                    fabs(ins->cdist[j]) <= lim[j])
+            for (int sg = 1; sg < ns; sg++) {
+                local_sample ls = local_at(ins, res, l, o, first, (worst + sg) % ns);
+                if (!ls.judged || ls.dist * sign <= 0 || fabs(ls.dist) <= ls.limit)
                     break;
                 ext++;
             }
-            for (int s = 1; s < c - ext + 1; s++) {
-                int j = first + ((worst - first - s) % c + c) % c;
-                if (!ins->cvalid[j] || ins->cdist[j] * sign <= 0 ||
-                    fabs(ins->cdist[j]) <= lim[j])
+            for (int sg = 1; sg < ns - ext + 1; sg++) {
+                local_sample ls = local_at(ins, res, l, o, first, ((worst - sg) % ns + ns) % ns);
+                if (!ls.judged || ls.dist * sign <= 0 || fabs(ls.dist) <= ls.limit)
                     break;
                 ext++;
             }
             /* beyond its limit over more than a sixth of the outline: the
                outline is bent or dented, not nicked */
-            int deform = ext * 6 > c;
+            int deform = ext * 6 > ns;
             mb_reason_code code = deform ? MB_REASON_DEFORM
                                   : sign < 0 ? MB_REASON_NICK : MB_REASON_FLASH;
-            double depth = fabs(ins->cdist[worst]);
-            mb_reason *r = add_reason(v, code, depth * mm, lim[worst] * mm);
+            double depth = fabs(w.dist);
+            mb_reason *r = add_reason(v, code, depth * mm, w.limit * mm);
             if (!r)
                 continue;
             r->outline = o;
-            r->position = (double)(worst - first) / c;
+            local_where(ins, res, l, o, first, worst, r);
             r->position_mm = r->position * len;
-            r->angle_deg = ins->mean_angle[worst];
-            r->x = ins->target[2 * worst];
-            r->y = ins->target[2 * worst + 1];
             r->depth_px = depth;
             r->depth_mm = depth * mm;
-            r->extent_mm = ext * len / c;
+            r->extent_mm = ext * step;
             if (deform)
                 snprintf(r->text, sizeof r->text,
                          "%s deformed: %.2f %s %s the taught shape at %.0f deg "
@@ -416,7 +579,7 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
                          sign < 0 ? "nick (material missing)" : "flash (material added)",
                          oname, r->angle_deg, 100.0 * r->position, depth * mm, unit,
                          sign < 0 ? "deep" : "high", r->extent_mm, unit,
-                         lim[worst] * mm, unit);
+                         w.limit * mm, unit);
         }
         first += c;
     }

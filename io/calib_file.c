@@ -358,8 +358,10 @@ static int parse_root(const cJSON *root, const char *name, mb_calib *c,
         (rc = read_residuals(root, name, c, err)) < 0)
         return rc;
     char why[MB_ERR_LEN];
-    if ((rc = mb_calib_validate(c, why)) < 0)
-        return mb_err_set(err, rc, "%s: %s", name, why);
+    if ((rc = mb_calib_validate(c, why)) < 0) {
+        const char *w = strncmp(why, "calibration: ", 13) ? why : why + 13;
+        return mb_err_set(err, rc, "%s: model: %s", name, w);
+    }
     return MB_OK;
 }
 
@@ -405,8 +407,9 @@ int mb_calib_file_load_for(const char *path, int width, int height,
         return rc;
     char why[MB_ERR_LEN];
     if ((rc = mb_calib_check_frame(cal, width, height, why)) < 0) {
+        const char *w = strncmp(why, "calibration: ", 13) ? why : why + 13;
         memset(cal, 0, sizeof *cal);
-        return mb_err_set(err, rc, "%s: %s", path, why);
+        return mb_err_set(err, rc, "%s: %s", path, w);
     }
     return MB_OK;
 }

@@ -6,6 +6,7 @@
 #include "part_sections.h"
 
 #include "error.h"
+#include "file_util.h"
 #include "json_util.h"
 
 #include <math.h>
@@ -119,6 +120,39 @@ done:
     free(cov);
 }
 
+static const char *const gauge_kinds[] = {
+    "", "diameter", "width-min", "width-max", "spacing", "length", "area"};
+
+static void add_gauges(cJSON *payload, const mb_part_model *pm, int *ok)
+{
+    cJSON *a = cJSON_CreateArray();
+    if (!a || !cJSON_AddItemToObject(payload, "gauges", a)) {
+        cJSON_Delete(a);
+        *ok = 0;
+        return;
+    }
+    for (int g = 0; g < pm->n_gauges && *ok; g++) {
+        const mb_gauge_def *d = &pm->gauges[g];
+        cJSON *o = cJSON_CreateObject();
+        if (!o || !cJSON_AddItemToArray(a, o)) {
+            cJSON_Delete(o);
+            *ok = 0;
+            return;
+        }
+        if (!cJSON_AddStringToObject(o, "name", d->name) ||
+            !cJSON_AddStringToObject(o, "kind", gauge_kinds[d->kind]))
+            *ok = 0;
+        put(o, "outline", d->a, ok);
+        if (d->kind == MB_GAUGE_SPACING)
+            put(o, "outline_b", d->b, ok);
+        put(o, "nominal_mm", d->nominal, ok);
+        put(o, "tol_lo_mm", d->tol_lo, ok);
+        put(o, "tol_hi_mm", d->tol_hi, ok);
+        put(o, "taught_mean_mm", d->taught_mean, ok);
+        put(o, "taught_sd_mm", d->taught_sd, ok);
+    }
+}
+
 int mb_part_sections_add(cJSON *payload, const mb_part_model *pm)
 {
     int ok = 1;
@@ -138,6 +172,8 @@ int mb_part_sections_add(cJSON *payload, const mb_part_model *pm)
         add_limits(payload, &pm->limits, &ok);
     if (pm->profiles)
         add_profiles(payload, pm->profiles, &ok);
+    if (pm->n_gauges > 0)
+        add_gauges(payload, pm, &ok);
     return ok ? MB_OK : MB_ENOMEM;
 }
 
@@ -296,6 +332,78 @@ done:
     return rc;
 }
 
+int mb_gauges_read(const cJSON *array, const char *name, const char *field,
+                   int n_outlines, mb_gauge_def *defs, int *n, char *err)
+{
+    if (!cJSON_IsArray(array))
+        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an array of gauges",
+                          name, field);
+    int count = cJSON_GetArraySize(array), rc;
+    if (count > MB_MAX_GAUGES)
+        return mb_err_set(err, MB_ERANGE, "%s: %s: %d gauges, at most %d allowed",
+                          name, field, count, MB_MAX_GAUGES);
+    *n = 0;
+    for (int g = 0; g < count; g++) {
+        const cJSON *o = cJSON_GetArrayItem(array, g);
+        char par[MB_JSON_FIELD_LEN];
+        snprintf(par, sizeof par, "%s[%d]", field, g);
+        mb_gauge_def *d = &defs[g];
+        memset(d, 0, sizeof *d);
+        if (!cJSON_IsObject(o))
+            return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+        const cJSON *nm = cJSON_GetObjectItemCaseSensitive(o, "name");
+        const cJSON *kd = cJSON_GetObjectItemCaseSensitive(o, "kind");
+        if (!cJSON_IsString(nm) || !nm->valuestring[0])
+            return mb_err_set(err, MB_EFORMAT, "%s: %s.name: expected a name", name, par);
+        snprintf(d->name, sizeof d->name, "%s", nm->valuestring);
+        d->kind = 0;
+        for (int k = 1; cJSON_IsString(kd) && k <= MB_GAUGE_AREA; k++)
+            if (!strcmp(kd->valuestring, gauge_kinds[k]))
+                d->kind = (mb_gauge_kind)k;
+        if (!d->kind)
+            return mb_err_set(err, MB_EFORMAT,
+                              "%s: %s.kind: expected one of diameter, width-min, "
+                              "width-max, spacing, length, area", name, par);
+        int hi = n_outlines > 0 ? n_outlines - 1 : MB_MAX_OUTLINES - 1;
+        if ((rc = get_int(o, name, par, "outline", 0, hi, &d->a, err)) < 0)
+            return rc;
+        if (d->kind == MB_GAUGE_SPACING &&
+            (rc = get_int(o, name, par, "outline_b", 0, hi, &d->b, err)) < 0)
+            return rc;
+        if ((rc = get_num(o, name, par, "nominal_mm", &d->nominal, err)) < 0 ||
+            (rc = get_num(o, name, par, "tol_lo_mm", &d->tol_lo, err)) < 0 ||
+            (rc = get_num(o, name, par, "tol_hi_mm", &d->tol_hi, err)) < 0)
+            return rc;
+        if (!(d->tol_lo <= 0 && d->tol_hi >= 0 && d->tol_hi > d->tol_lo))
+            return mb_err_set(err, MB_ERANGE,
+                              "%s: %s: expected tol_lo_mm <= 0 <= tol_hi_mm and a "
+                              "tolerance band wider than zero", name, par);
+        if (cJSON_GetObjectItemCaseSensitive(o, "taught_mean_mm") &&
+            ((rc = get_num(o, name, par, "taught_mean_mm", &d->taught_mean, err)) < 0 ||
+             (rc = get_num(o, name, par, "taught_sd_mm", &d->taught_sd, err)) < 0))
+            return rc;
+        *n = g + 1;
+    }
+    return MB_OK;
+}
+
+int mb_gauges_load(const char *path, mb_gauge_def *defs, int *n, char *err)
+{
+    char *text = NULL;
+    size_t len = 0;
+    cJSON *root = NULL;
+    int rc = mb_file_read_all(path, (size_t)1 << 20, &text, &len, err);
+    if (rc < 0)
+        return rc;
+    if ((rc = mb_json_parse(text, len, path, &root, err)) == 0 &&
+        (rc = mb_json_check_header(root, path, "modeband-gauges", 1, err)) == 0)
+        rc = mb_gauges_read(cJSON_GetObjectItemCaseSensitive(root, "gauges"), path,
+                            "gauges", 0, defs, n, err);
+    cJSON_Delete(root);
+    free(text);
+    return rc;
+}
+
 int mb_part_sections_read(const cJSON *payload, const char *name,
                           mb_part_model *pm, char *err)
 {
@@ -313,6 +421,11 @@ int mb_part_sections_read(const cJSON *payload, const char *name,
     if ((rc = read_imaging(payload, name, pm, err)) < 0 ||
         (rc = read_limits(payload, name, pm, err)) < 0 ||
         (rc = read_profiles(payload, name, pm, err)) < 0)
+        return rc;
+    const cJSON *g = cJSON_GetObjectItemCaseSensitive(payload, "gauges");
+    if (g && (rc = mb_gauges_read(g, name, "payload.gauges",
+                                  mb_shape_model_layout(pm->shape)->n_outlines,
+                                  pm->gauges, &pm->n_gauges, err)) < 0)
         return rc;
     return MB_OK;
 }

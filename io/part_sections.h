@@ -15,6 +15,10 @@
  *                "part_grey", "back_grey", "area", "size",
  *                "means": [levels * n * p]      level-major, then landmark
  *                "cov_upper": [levels * n * p (p + 1) / 2]}
+ *   "gauges":   [{"name", "kind" ("diameter", "width-min", "width-max",
+ *                 "spacing", "length", "area"), "outline", "outline_b"
+ *                 (spacing only), "nominal_mm", "tol_lo_mm", "tol_hi_mm",
+ *                 "taught_mean_mm", "taught_sd_mm"}]
  *                            each covariance's upper triangle, column by
  *                            column (S'[0][0], S'[0][1], S'[1][1], ...)
  * with n landmarks and p = 2 half_len + 1. Every section is optional in the
@@ -38,5 +42,21 @@ int mb_part_sections_add(cJSON *payload, const mb_part_model *pm);
  */
 int mb_part_sections_read(const cJSON *payload, const char *name,
                           mb_part_model *pm, char *err);
+
+/**
+ * Read a "gauges" array (the model's, or a gauge file's) into defs (at most
+ * MB_MAX_GAUGES). field names the array in sentences. n_outlines bounds the
+ * outline indices (0: not checked). taught_* members are optional.
+ * Return value: 0; MB_EFORMAT; MB_ERANGE (too many gauges, an index or a
+ * tolerance out of range).
+ */
+int mb_gauges_read(const cJSON *array, const char *name, const char *field,
+                   int n_outlines, mb_gauge_def *defs, int *n, char *err);
+
+/**
+ * Read a gauge file: {"format": "modeband-gauges", "version": 1,
+ * "gauges": [...]} with items as in the model's "gauges".
+ */
+int mb_gauges_load(const char *path, mb_gauge_def *defs, int *n, char *err);
 
 #endif

@@ -62,17 +62,20 @@ static void link_lost(mb_plc *plc, const char *why)
                           : plc->backoff_ms * 2;
 }
 
+/* Request kinds, for logging a refusal once until that request works. */
+enum { RQ_BLOCK = 1, RQ_TRIGGER = 2, RQ_ACK = 4, RQ_SLOT = 8 };
+
 /* After a failed request: 0 when the PLC answered with an exception (the
  * link stays), -1 when the link was lost. */
-static int request_failed(mb_plc *plc, const char *what)
+static int request_failed(mb_plc *plc, const char *what, unsigned kind)
 {
     int e = errno;
     if (is_modbus_exception(e)) {
         plc->stats.plc_exceptions++;
-        if (!plc->exc_logged)
+        if (!(plc->exc_logged & kind))
             mb_plc_log(plc, MB_PLC_LOG_ERR, "plc: the PLC refused %s: %s",
                        what, modbus_strerror(e));
-        plc->exc_logged = 1;
+        plc->exc_logged |= kind;
         return 0;
     }
     char why[160];
@@ -85,25 +88,27 @@ static int write_block(mb_plc *plc)
 {
     if (modbus_write_registers(plc->ctx, plc->cfg.block_addr, MB_PLC_BLOCK_LEN,
                                plc->map.block) != MB_PLC_BLOCK_LEN)
-        return request_failed(plc, "the block write") < 0 ? -1 : -2;
+        return request_failed(plc, "the block write", RQ_BLOCK) < 0 ? -1 : -2;
     plc->stats.block_writes++;
     plc->block_dirty = 0;
-    plc->exc_logged = 0;
+    plc->exc_logged &= ~(unsigned)RQ_BLOCK;
     return 0;
 }
 
-static int write_flag(mb_plc *plc, int addr, const char *what)
+static int write_flag(mb_plc *plc, int addr, const char *what, unsigned kind)
 {
     int rc = plc->cfg.trigger_kind == MB_PLC_ON_COIL
                  ? modbus_write_bit(plc->ctx, addr, 0)
                  : modbus_write_register(plc->ctx, addr, 0);
     if (rc != 1)
-        return request_failed(plc, what) < 0 ? -1 : -2;
+        return request_failed(plc, what, kind) < 0 ? -1 : -2;
+    plc->exc_logged &= ~kind;
     return 0;
 }
 
 /* Read a trigger/acknowledge flag into *set. 0, -1 link lost, -2 refused. */
-static int read_flag(mb_plc *plc, int addr, const char *what, int *set)
+static int read_flag(mb_plc *plc, int addr, const char *what, unsigned kind,
+                     int *set)
 {
     int rc;
     if (plc->cfg.trigger_kind == MB_PLC_ON_COIL) {
@@ -116,7 +121,8 @@ static int read_flag(mb_plc *plc, int addr, const char *what, int *set)
         *set = r != 0;
     }
     if (rc != 1)
-        return request_failed(plc, what) < 0 ? -1 : -2;
+        return request_failed(plc, what, kind) < 0 ? -1 : -2;
+    plc->exc_logged &= ~kind;
     return 0;
 }
 
@@ -133,7 +139,7 @@ static void link_up(mb_plc *plc, int64_t now_ms)
     plc->next_poll = now_ms;
     /* A trigger taken while down is cleared first, then the latest block. */
     if (plc->clear_trigger) {
-        if (write_flag(plc, plc->cfg.trigger_addr, "clearing the trigger") == -1)
+        if (write_flag(plc, plc->cfg.trigger_addr, "clearing the trigger", RQ_TRIGGER) == -1)
             return;
         plc->clear_trigger = 0;
     }
@@ -234,7 +240,7 @@ static void poll_plc(mb_plc *plc)
 {
     int set = 0, rc;
     if (plc->cfg.ack_addr >= 0 && plc->map.state == MB_PLC_RESULT) {
-        rc = read_flag(plc, plc->cfg.ack_addr, "reading the acknowledge", &set);
+        rc = read_flag(plc, plc->cfg.ack_addr, "reading the acknowledge", RQ_ACK, &set);
         if (rc == -1)
             return;
         if (rc == 0 && set) {
@@ -245,13 +251,13 @@ static void poll_plc(mb_plc *plc)
         }
     }
     if (plc->ack_clear) {
-        rc = write_flag(plc, plc->cfg.ack_addr, "clearing the acknowledge");
+        rc = write_flag(plc, plc->cfg.ack_addr, "clearing the acknowledge", RQ_ACK);
         if (rc == -1)
             return;
         plc->ack_clear = 0;
     }
     if (plc->map.state != MB_PLC_BUSY && !plc->map.coil[MB_PLC_COIL_TRIGGER]) {
-        rc = read_flag(plc, plc->cfg.trigger_addr, "reading the trigger", &set);
+        rc = read_flag(plc, plc->cfg.trigger_addr, "reading the trigger", RQ_TRIGGER, &set);
         if (rc == -1)
             return;
         if (rc == 0 && set) {
@@ -262,9 +268,10 @@ static void poll_plc(mb_plc *plc)
     if (plc->cfg.slot_addr >= 0) {
         uint16_t v = 0;
         if (modbus_read_registers(plc->ctx, plc->cfg.slot_addr, 1, &v) != 1) {
-            request_failed(plc, "reading the requested slot");
+            request_failed(plc, "reading the requested slot", RQ_SLOT);
             return;
         }
+        plc->exc_logged &= ~(unsigned)RQ_SLOT;
         if (v != plc->map.req_slot) {
             plc->map.req_slot = v;
             mb_plc_map_apply_writes(&plc->map, 1);
@@ -314,7 +321,7 @@ static void client_service(mb_plc *plc, int64_t now_ms)
         }
     }
     if (plc->clear_trigger) {
-        if (write_flag(plc, plc->cfg.trigger_addr, "clearing the trigger") == -1)
+        if (write_flag(plc, plc->cfg.trigger_addr, "clearing the trigger", RQ_TRIGGER) == -1)
             return;
         plc->clear_trigger = 0;
     }
@@ -337,7 +344,7 @@ static void client_changed(mb_plc *plc, int result)
         return;
     }
     if (plc->clear_trigger) {
-        if (write_flag(plc, plc->cfg.trigger_addr, "clearing the trigger") == -1) {
+        if (write_flag(plc, plc->cfg.trigger_addr, "clearing the trigger", RQ_TRIGGER) == -1) {
             if (result)
                 plc->stats.unsent_results++;
             return;

@@ -80,7 +80,7 @@ struct mb_plc {
     int clear_trigger; /* the PLC's trigger must still be written to 0 */
     int block_dirty;   /* the PLC has not seen the latest block */
     int ack_clear;     /* the PLC's acknowledge must still be written to 0 */
-    int exc_logged;    /* a PLC exception was logged; quiet until success */
+    unsigned exc_logged; /* request kinds whose refusal was logged */
 };
 
 /** Send a sentence to the configured log callback (printf-style). */

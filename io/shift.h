@@ -53,7 +53,7 @@ typedef struct {
 typedef struct {
     int index;                    /**< into the calendar's sorted shifts */
     char name[MB_SHIFT_NAME_LEN]; /**< the shift's name */
-    char date[11];                /**< local date the shift started on,
+    char date[16];                /**< local date the shift started on,
                                        "YYYY-MM-DD" */
     time_t start;                 /**< instant the shift started */
     time_t next;                  /**< instant the next shift starts

@@ -20,7 +20,9 @@
  *   4. speed on one core (openblas_set_num_threads(1)): median and 99th
  *      percentile ms of mb_inspector_run with the frame in memory (the
  *      frame was just written by the generator, so it may sit in cache),
- *      beside one memcpy of the frame as the floor;
+ *      as wall time and as CPU time of the thread (which a busy machine
+ *      does not inflate by preemption), beside one memcpy of the frame as
+ *      the floor;
  *   5. allocations counted (wrapped malloc/calloc/realloc) over every
  *      mb_inspector_run after an inspector's first.
  * The first CV_GOOD good and CV_DEFECT defective frames, the 30 teaching
@@ -109,14 +111,15 @@ typedef struct {
     int by_n[N_TYPES][N_BINS], by_esc[N_TYPES][N_BINS];
     int fr_reason[32];                /* primary reason of false rejects */
     double rms_px, max_px, valid_frac;
-    double med_ms, p99_ms, cpy_ms;
+    double med_ms, p99_ms, cpy_ms, cpu_med, cpu_p99;
+    double part_p99, part_cpu_p99; /* p99 over frames with a part */
     long allocs;
     int timed;
     /* the subset the OpenCV side sees, judged by modeband */
     int sub_good, sub_fr, sub_defect, sub_esc, sub_defect05, sub_esc05;
     /* the OpenCV side */
     int cv_ok, cv_good, cv_fr, cv_defect, cv_esc, cv_defect05, cv_esc05;
-    double cv_med, cv_p99;
+    double cv_med, cv_p99, cv_cpu_med, cv_cpu_p99, cv_part_p99, cv_part_cpu_p99;
     char cv_types[1024];
 } config_figures;
 
@@ -124,6 +127,14 @@ static double now_ms(void)
 {
     struct timespec ts;
     clock_gettime(CLOCK_MONOTONIC, &ts);
+    return ts.tv_sec * 1e3 + ts.tv_nsec * 1e-6;
+}
+
+/* CPU time of this thread: robust to the thread being preempted */
+static double cpu_ms(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
     return ts.tv_sec * 1e3 + ts.tv_nsec * 1e-6;
 }
 
@@ -241,9 +252,11 @@ static void run_opencv(const char *python, const char *script, const char *teach
     }
     while (fgets(line, sizeof line, p)) {
         if (sscanf(line, "cv_result good=%d fr=%d defect=%d esc=%d defect05=%d "
-                         "esc05=%d med=%lf p99=%lf",
+                         "esc05=%d med=%lf p99=%lf cpu_med=%lf cpu_p99=%lf part_p99=%lf "
+                         "part_cpu_p99=%lf",
                    &f->cv_good, &f->cv_fr, &f->cv_defect, &f->cv_esc, &f->cv_defect05,
-                   &f->cv_esc05, &f->cv_med, &f->cv_p99) == 8)
+                   &f->cv_esc05, &f->cv_med, &f->cv_p99, &f->cv_cpu_med,
+                   &f->cv_cpu_p99, &f->cv_part_p99, &f->cv_part_cpu_p99) == 12)
             f->cv_ok = 1;
         else if (!strncmp(line, "cv_types ", 9)) {
             snprintf(f->cv_types, sizeof f->cv_types, "%s", line + 9);
@@ -327,7 +340,11 @@ static void run_config(int fam, int light, const bench_opts *o, config_figures *
     const int total = o->n_good + o->n_defect;
     double *t_run = malloc(sizeof(double) * (size_t)total);
     double *t_cpy = malloc(sizeof(double) * (size_t)total);
-    if (!t_run || !t_cpy)
+    double *t_cpu = malloc(sizeof(double) * (size_t)total);
+    double *p_run = malloc(sizeof(double) * (size_t)total);
+    double *p_cpu = malloc(sizeof(double) * (size_t)total);
+    int n_part = 0;
+    if (!t_run || !t_cpy || !t_cpu || !p_run || !p_cpu)
         die("malloc", MB_ENOMEM, NULL);
     double sum2 = 0.0, maxd = 0.0;
     long n_pts = 0, n_slots = 0;
@@ -349,16 +366,21 @@ static void run_config(int fam, int light, const bench_opts *o, config_figures *
         double t1 = now_ms();
         mb_verdict v;
         long a0 = n_allocs;
-        double t2 = now_ms();
+        double c2 = cpu_ms(), t2 = now_ms();
         mb_inspector_run(ins, &frame, &v);
-        double t3 = now_ms();
-        if (!first) {
+        double t3 = now_ms(), c3 = cpu_ms();
+        if (!first) { /* the first run of an inspector is not counted */
             f->allocs += n_allocs - a0;
+            t_cpy[f->timed] = t1 - t0;
+            t_run[f->timed] = t3 - t2;
+            t_cpu[f->timed] = c3 - c2;
             f->timed++;
+            if (truth.present) {
+                p_run[n_part] = t3 - t2;
+                p_cpu[n_part++] = c3 - c2;
+            }
         }
         first = 0;
-        t_cpy[f->timed] = t1 - t0;
-        t_run[f->timed] = t3 - t2;
         const int passed = v.verdict == MB_VERDICT_PASS;
         const int in_subset = is_good ? j < o->cv_good : j < o->cv_defect;
         if (truth.good) {
@@ -368,6 +390,10 @@ static void run_config(int fam, int light, const bench_opts *o, config_figures *
                 f->faults += v.verdict == MB_VERDICT_FAULT;
                 int c = v.n_reasons > 0 ? (int)v.reasons[0].code : 0;
                 f->fr_reason[c >= 0 && c < 32 ? c : 0]++;
+                if (v.n_reasons > 0)
+                    printf("  false reject: part %llu: %s %.3g (limit %.3g)\n",
+                           (unsigned long long)index, mb_reason_name(v.reasons[0].code),
+                           v.reasons[0].value, v.reasons[0].limit);
             }
             if (in_subset) {
                 f->sub_good++;
@@ -392,6 +418,10 @@ static void run_config(int fam, int light, const bench_opts *o, config_figures *
             const int big = bin >= 1;
             f->defect++;
             f->escapes += passed;
+            if (passed)
+                printf("  escape: part %llu: %s %.2f mm (extent %.2f mm)\n",
+                       (unsigned long long)index, mb_synth_defect_name(truth.defect.type),
+                       truth.defect.size_mm, truth.defect.extent_mm);
             f->defect05 += big;
             f->escapes05 += big && passed;
             if (slot >= 0) {
@@ -422,7 +452,13 @@ static void run_config(int fam, int light, const bench_opts *o, config_figures *
     f->valid_frac = n_slots ? (double)n_pts / (double)n_slots : 0.0;
     double dummy;
     stats(t_run, f->timed, &f->med_ms, &f->p99_ms);
+    stats(t_cpu, f->timed, &f->cpu_med, &f->cpu_p99);
+    stats(p_run, n_part, &dummy, &f->part_p99);
+    stats(p_cpu, n_part, &dummy, &f->part_cpu_p99);
+    free(p_run);
+    free(p_cpu);
     stats(t_cpy, f->timed, &f->cpy_ms, &dummy);
+    free(t_cpu);
     free(t_run);
     free(t_cpy);
     mb_inspector_close(ins);
@@ -447,12 +483,12 @@ static double pct(int a, int b)
 static void print_config(int fam, int light, const config_figures *f)
 {
     printf("%-7s %-5s | %2d | %3d/%3d %5.2f%% | %3d/%3d %5.2f%% | %3d/%3d %5.2f%% | %6.3f %6.3f "
-           "%5.1f%% | %6.2f %6.2f %6.3f | %ld\n",
+           "%5.1f%% | %6.2f %6.2f | %6.2f %6.2f | %6.3f | %ld\n",
            mb_synth_family_name(fam), mb_synth_lighting_name(light), f->n_used, f->false_rej,
            f->good, pct(f->false_rej, f->good), f->escapes05, f->defect05,
            pct(f->escapes05, f->defect05), f->escapes, f->defect, pct(f->escapes, f->defect),
-           f->rms_px, f->max_px, 100.0 * f->valid_frac, f->med_ms, f->p99_ms, f->cpy_ms,
-           f->allocs);
+           f->rms_px, f->max_px, 100.0 * f->valid_frac, f->med_ms, f->p99_ms, f->cpu_med,
+           f->cpu_p99, f->cpy_ms, f->allocs);
 }
 
 int main(int argc, char **argv)
@@ -508,7 +544,7 @@ int main(int argc, char **argv)
     printf("\nmodeband (inspect/verdict.h); goals: false rejects <= 0.5 %%, escapes >= 0.5 mm "
            "<= 1 %%, RMS <= 0.1 px, median < 2 ms, 0 allocations\n");
     printf("family  light |use| false rej. good  | escapes >=0.5 mm  | escapes all       | "
-           "outline px: RMS max valid | ms: median  p99 memcpy | allocs\n");
+           "outline px: RMS max valid | wall ms: med  p99 | cpu ms: med  p99 | memcpy | allocs\n");
     config_figures all;
     memset(&all, 0, sizeof all);
     for (int c = 0; c < N_CONFIGS; c++) {
@@ -586,20 +622,27 @@ int main(int argc, char **argv)
                "from the same %d good frames) on the same %d good + %d defective frames per "
                "family and lighting; ms per frame, decoding excluded, one core\n",
                N_TEACH, o.cv_good, o.cv_defect);
-        printf("family  light | modeband: false rej  esc>=0.5   esc all   med ms  p99 ms | "
-               "opencv: false rej  esc>=0.5   esc all   med ms  p99 ms\n");
+        printf("(ms: median, p99, p99 of the frames with a part (empty frames left out); wall "
+               "time, then CPU time of the thread; modeband's over all its frames)\n");
+        printf("family  light | modeband: false rej esc>=0.5 esc all | wall ms: med p99 part | "
+               "cpu ms: med p99 part  | opencv: false rej esc>=0.5 esc all | wall ms: med p99 "
+               "part | cpu ms: med p99 part\n");
         for (int c = 0; c < N_CONFIGS; c++) {
             const config_figures *f = &figs[c];
             if (!f->done)
                 continue;
-            printf("%-7s %-5s |          %3d/%-3d  %3d/%-3d  %3d/%-3d  %6.2f  %6.2f |", 
+            printf("%-7s %-5s |           %3d/%-3d  %3d/%-3d %3d/%-3d | %5.2f %7.2f %7.2f | "
+                   "%5.2f %7.2f %7.2f |",
                    mb_synth_family_name(c / 2), mb_synth_lighting_name(c % 2), f->sub_fr,
                    f->sub_good, f->sub_esc05, f->sub_defect05, f->sub_esc, f->sub_defect,
-                   f->med_ms, f->p99_ms);
+                   f->med_ms, f->p99_ms, f->part_p99, f->cpu_med, f->cpu_p99,
+                   f->part_cpu_p99);
             if (f->cv_ok)
-                printf("        %3d/%-3d  %3d/%-3d  %3d/%-3d  %6.2f  %6.2f\n", f->cv_fr,
-                       f->cv_good, f->cv_esc05, f->cv_defect05, f->cv_esc, f->cv_defect,
-                       f->cv_med, f->cv_p99);
+                printf("         %3d/%-3d  %3d/%-3d %3d/%-3d | %5.2f %7.2f %7.2f | %5.2f %7.2f "
+                       "%7.2f\n",
+                       f->cv_fr, f->cv_good, f->cv_esc05, f->cv_defect05, f->cv_esc,
+                       f->cv_defect, f->cv_med, f->cv_p99, f->cv_part_p99, f->cv_cpu_med,
+                       f->cv_cpu_p99, f->cv_part_cpu_p99);
             else
                 printf("        (failed)\n");
         }

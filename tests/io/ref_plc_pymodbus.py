@@ -472,8 +472,33 @@ def client_mode():
           f"{stats.get('connects')} connects, {stats.get('link_failures')} link failures")
 
 
+def client_refused():
+    """A trigger address the PLC does not have: every read is refused
+    (exception 02 from pymodbus's datastore); the link stays up, the block
+    keeps going out, the refusal is logged once, not every poll."""
+    plc = PlcServer()
+    plc.new_store(0)
+    port = plc.start(0)
+    st = Station(["--mode", "client", "--peer", f"127.0.0.1:{port}", "--block", "100",
+                  "--trigger-coil", "150", "--poll-ms", "5", "--heartbeat-ms", "100"])
+    try:
+        check(wait_until(lambda: plc.hr(100, 1)[0] >= 2, 3),
+              "refused trigger address: block still written every heartbeat")
+        hb = plc.hr(100, 1)[0]
+        check(wait_until(lambda: plc.hr(100, 1)[0] >= hb + 3, 2), "and the heartbeat keeps going")
+    finally:
+        rc, stats = st.stop()
+        plc.stop()
+    refusals = [l for l in st.lines if "refused reading the trigger" in l]
+    check(rc == 0 and stats.get("plc_exceptions", 0) >= 20 and len(refusals) == 1 and
+          stats.get("link_failures") == 0,
+          f"{stats.get('plc_exceptions')} refusals counted, {len(refusals)} logged, "
+          f"{stats.get('link_failures')} link failures")
+
+
 server_mode()
 client_mode()
+client_refused()
 if failures:
     print(f"{len(failures)} check(s) failed")
     sys.exit(1)

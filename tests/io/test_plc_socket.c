@@ -558,6 +558,31 @@ static void test_max_connections(void **state)
     assert_true(s.st.accepted >= 3);
 }
 
+static void test_idle_timeout(void **state)
+{
+    station s;
+    station_init(&s);
+    s.cfg.idle_timeout_ms = 200;
+    station_start(&s);
+    int a = raw_connect(s.port);
+    double t0 = now_s();
+    assert_true(closed_by_server(a)); /* silent: closed after ~200 ms */
+    double dt = now_s() - t0;
+    assert_true(dt > 0.15 && dt < 2.0);
+    close(a);
+    /* a client that keeps talking stays */
+    modbus_t *c = client(s.port);
+    uint16_t hr[16];
+    for (int i = 0; i < 8; i++) {
+        read_block(c, hr);
+        struct timespec ts = {0, 50 * 1000000L};
+        nanosleep(&ts, NULL);
+    }
+    client_free(c);
+    station_stop(&s);
+    assert_int_equal(s.st.dropped_timeout, 1);
+}
+
 static int ipv6_loopback(void)
 {
     int fd = socket(AF_INET6, SOCK_STREAM, 0);
@@ -655,6 +680,7 @@ int main(void)
         cmocka_unit_test(test_exceptions),
         cmocka_unit_test(test_garbage),
         cmocka_unit_test(test_max_connections),
+        cmocka_unit_test(test_idle_timeout),
         cmocka_unit_test(test_allow_list),
         cmocka_unit_test(test_port_in_use),
     };

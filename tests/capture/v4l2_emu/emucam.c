@@ -69,9 +69,9 @@ typedef struct {
     size_t buf_size; /* page aligned */
     uint8_t *map;
     int state[MAX_BUFFERS];
-    int queue[MAX_BUFFERS], q_head, q_len;    /* queued, oldest first */
-    int done[MAX_BUFFERS], d_head, d_len;     /* done, oldest first */
-    struct v4l2_buffer info[MAX_BUFFERS];     /* what DQBUF reports */
+    int queue[MAX_BUFFERS], q_head, q_len; /* queued, oldest first */
+    int done[MAX_BUFFERS], d_head, d_len;  /* done, oldest first */
+    struct v4l2_buffer info[MAX_BUFFERS];  /* what DQBUF reports */
     /* stream */
     int streaming;
     int64_t t_start;
@@ -94,10 +94,8 @@ static int64_t mono_ns(void)
 
 static void sleep_until(int64_t t)
 {
-    struct timespec ts = {(time_t)(t / 1000000000LL),
-                          (long)(t % 1000000000LL)};
-    while (clock_nanosleep(CLOCK_MONOTONIC, TIMER_ABSTIME, &ts, NULL) ==
-           EINTR)
+    struct timespec ts = {(time_t)(t / 1000000000LL), (long)(t % 1000000000LL)};
+    while (clock_nanosleep(CLOCK_MONOTONIC, TIMER_ABSTIME, &ts, NULL) == EINTR)
         ;
 }
 
@@ -252,14 +250,10 @@ static void adjust(const emu *e, struct v4l2_pix_format *p)
 static const char *fourcc_name(uint32_t f)
 {
     switch (f) {
-    case V4L2_PIX_FMT_GREY:
-        return "GREY";
-    case V4L2_PIX_FMT_YUYV:
-        return "YUYV";
-    case V4L2_PIX_FMT_UYVY:
-        return "UYVY";
-    default:
-        return "?";
+    case V4L2_PIX_FMT_GREY: return "GREY";
+    case V4L2_PIX_FMT_YUYV: return "YUYV";
+    case V4L2_PIX_FMT_UYVY: return "UYVY";
+    default: return "?";
     }
 }
 
@@ -322,8 +316,8 @@ static void run_sensor(emu *e, int64_t now)
         struct v4l2_buffer *b = &e->info[i];
         int64_t t = due_time(e, n);
         b->sequence = seq;
-        b->bytesused = n == e->short_at ? e->pix.sizeimage / 2
-                                        : e->pix.sizeimage;
+        b->bytesused =
+            n == e->short_at ? e->pix.sizeimage / 2 : e->pix.sizeimage;
         b->timestamp.tv_sec = (time_t)(t / 1000000000LL);
         b->timestamp.tv_usec = (suseconds_t)(t % 1000000000LL / 1000);
         e->state[i] = B_DONE;
@@ -351,8 +345,7 @@ static void describe(const emu *e, int i, struct v4l2_buffer *b)
 
 static int do_reqbufs(emu *e, struct v4l2_requestbuffers *r)
 {
-    if (r->type != V4L2_BUF_TYPE_VIDEO_CAPTURE ||
-        r->memory != V4L2_MEMORY_MMAP)
+    if (r->type != V4L2_BUF_TYPE_VIDEO_CAPTURE || r->memory != V4L2_MEMORY_MMAP)
         return fail(EINVAL);
     if (e->streaming)
         return fail(EBUSY);
@@ -444,8 +437,8 @@ static int do_queryctrl(const emu *e, struct v4l2_queryctrl *q)
 {
     const ctrl_def *c = NULL;
     if (q->id & V4L2_CTRL_FLAG_NEXT_CTRL) {
-        uint32_t after = q->id & ~(V4L2_CTRL_FLAG_NEXT_CTRL |
-                                   V4L2_CTRL_FLAG_NEXT_COMPOUND);
+        uint32_t after =
+            q->id & ~(V4L2_CTRL_FLAG_NEXT_CTRL | V4L2_CTRL_FLAG_NEXT_COMPOUND);
         for (int i = 0; i < N_CONTROLS && !c && !e->no_controls; i++)
             if (controls[i].id > after)
                 c = &controls[i];
@@ -468,14 +461,10 @@ static int do_queryctrl(const emu *e, struct v4l2_queryctrl *q)
 static int *control_value(emu *e, uint32_t id)
 {
     switch (id) {
-    case V4L2_CID_GAIN:
-        return &e->gain;
-    case V4L2_CID_EXPOSURE_AUTO:
-        return &e->exp_auto;
-    case V4L2_CID_EXPOSURE_ABSOLUTE:
-        return &e->exp_abs;
-    default:
-        return NULL;
+    case V4L2_CID_GAIN: return &e->gain;
+    case V4L2_CID_EXPOSURE_AUTO: return &e->exp_auto;
+    case V4L2_CID_EXPOSURE_ABSOLUTE: return &e->exp_abs;
+    default: return NULL;
     }
 }
 
@@ -561,11 +550,11 @@ static int emu_ioctl(void *priv, int fd, unsigned long request, void *arg)
         }
         return 0;
     }
-    case VIDIOC_REQBUFS:
-        return do_reqbufs(e, arg);
+    case VIDIOC_REQBUFS: return do_reqbufs(e, arg);
     case VIDIOC_QUERYBUF: {
         struct v4l2_buffer *b = arg;
-        if (b->type != V4L2_BUF_TYPE_VIDEO_CAPTURE || b->index >= (uint32_t)e->n_buf)
+        if (b->type != V4L2_BUF_TYPE_VIDEO_CAPTURE ||
+            b->index >= (uint32_t)e->n_buf)
             return fail(EINVAL);
         describe(e, (int)b->index, b);
         return 0;
@@ -610,15 +599,14 @@ static int emu_ioctl(void *priv, int fd, unsigned long request, void *arg)
         for (int i = 0; i < e->n_buf; i++)
             e->state[i] = B_IDLE;
         return 0;
-    case VIDIOC_QUERYCTRL:
-        return do_queryctrl(e, arg);
+    case VIDIOC_QUERYCTRL: return do_queryctrl(e, arg);
     case VIDIOC_QUERYMENU: {
         struct v4l2_querymenu *m = arg;
         static const char *const names[] = {"Auto Mode", "Manual Mode",
                                             "Shutter Priority Mode",
                                             "Aperture Priority Mode"};
-        if (m->id != V4L2_CID_EXPOSURE_AUTO || e->no_controls ||
-            m->index > 3 || (m->index != 1 && m->index != 3))
+        if (m->id != V4L2_CID_EXPOSURE_AUTO || e->no_controls || m->index > 3 ||
+            (m->index != 1 && m->index != 3))
             return fail(EINVAL);
         snprintf((char *)m->name, sizeof m->name, "%s", names[m->index]);
         return 0;
@@ -630,20 +618,18 @@ static int emu_ioctl(void *priv, int fd, unsigned long request, void *arg)
         c->value = *control_value(e, c->id);
         return 0;
     }
-    case VIDIOC_S_CTRL:
-        return do_s_ctrl(e, arg);
-    default:
-        return fail(ENOTTY);
+    case VIDIOC_S_CTRL: return do_s_ctrl(e, arg);
+    default: return fail(ENOTTY);
     }
 }
 
 /* The table libv4l2 looks up with dlsym. read and write stay NULL: the
    camera streams only (libv4l2 answers read() with EINVAL then). */
-__attribute__((visibility("default"))) const struct libv4l_dev_ops
-    libv4l2_plugin = {
-        .init = emu_init,
-        .close = emu_close,
-        .ioctl = emu_ioctl,
-        .read = NULL,
-        .write = NULL,
+__attribute__((visibility("default")))
+const struct libv4l_dev_ops libv4l2_plugin = {
+    .init = emu_init,
+    .close = emu_close,
+    .ioctl = emu_ioctl,
+    .read = NULL,
+    .write = NULL,
 };

@@ -49,8 +49,9 @@ int main(void)
             for (int x = 0; x < f.view.width && !status; x++)
                 if (f.view.pixels[y * f.view.stride + x] !=
                     emucam_luma(x, y, (uint32_t)f.seq)) {
-                    fprintf(stderr, "emucam_probe: frame %d differs at "
-                                    "(%d, %d)\n",
+                    fprintf(stderr,
+                            "emucam_probe: frame %d differs at "
+                            "(%d, %d)\n",
                             i, x, y);
                     status = 1;
                 }

@@ -26,8 +26,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-typedef int (*glob_fn)(const char *, int, int (*)(const char *, int),
-                       glob_t *);
+typedef int (*glob_fn)(const char *, int, int (*)(const char *, int), glob_t *);
 
 static int is_plugin_pattern(const char *p)
 {
