@@ -12,7 +12,7 @@ DEB_PKGS = cmake make gcc pkg-config clang libclang-rt-14-dev \
   libopenblas-dev liblapacke-dev libcjson-dev libpng-dev zlib1g-dev \
   libmodbus-dev libv4l-dev libsystemd-dev libcmocka-dev \
   python3-numpy python3-scipy python3-sklearn python3-skimage \
-  python3-opencv python3-pymodbus
+  python3-opencv python3-pymodbus chromium
 
 ifneq ($(CI),)
 WERROR = ON

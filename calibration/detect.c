@@ -55,6 +55,8 @@
 #include <string.h>
 
 #define MARK_CONTRAST 0.35
+/* Centroid window beyond the dot's edge, px (see refine_centre). */
+#define WINDOW_MARGIN_PX 4.0
 #define MAX_SEEDS_TRIED 40
 #define MIN_LATTICE 9
 /* Lattice coordinates relative to a seed stay within +-LAT_HALF. */
@@ -654,6 +656,12 @@ static int refine_centre(const mb_image *im, const double a[2],
     /* A^-1 maps an image offset to lattice units. */
     const double i00 = b[1] / det, i01 = -b[0] / det;
     const double i10 = -a[1] / det, i11 = a[0] / det;
+    /* The window reaches 4 px beyond the dot's edge (0.25 pitch; room for
+       the blur of a focused lens) and no further: every background pixel
+       inside it adds only noise to the centroid. The background ring
+       stays at 0.45 .. 0.55 pitch, clear of dots and marks. */
+    const double pitch_px = fmin(hypot(a[0], a[1]), hypot(b[0], b[1]));
+    const double rwin = fmin(0.25 + WINDOW_MARGIN_PX / pitch_px, 0.45);
     const double rin = 0.45, rout = 0.55;
     double ext = rout * (fabs(a[0]) + fabs(b[0])) + 1.0;
     double eyt = rout * (fabs(a[1]) + fabs(b[1])) + 1.0;
@@ -710,7 +718,7 @@ static int refine_centre(const mb_image *im, const double a[2],
             for (int px = xa; px <= xb; px++) {
                 double dx = px - cx, dy = py - cy;
                 double u = i00 * dx + i01 * dy, v = i10 * dx + i11 * dy;
-                if (u * u + v * v > rin * rin)
+                if (u * u + v * v > rwin * rwin)
                     continue;
                 double bg = fmax(beta[0] + beta[1] * dx + beta[2] * dy, 1.0);
                 double wgt = 1.0 - row[px] / bg;

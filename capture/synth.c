@@ -127,6 +127,7 @@ void mb_synth_config_default(mb_synth_config *cfg, mb_synth_family family)
     cfg->blur_sigma = 1.0;
     cfg->illumination = 0.12;
     cfg->variation = 1.0;
+    cfg->drift_per_part = 0.0;
     cfg->defect_rate = 0.0;
     cfg->defect_mask = MB_SYNTH_MASK_DEFAULT;
     cfg->seed = 1;
@@ -170,6 +171,11 @@ static int check_config(const mb_synth_config *c, char *err)
         return mb_err_set(err, MB_EINVAL,
                           "synthetic line: variation %g is outside 0..5",
                           c->variation);
+    if (!(fabs(c->drift_per_part) <= 1e-3))
+        return mb_err_set(err, MB_EINVAL,
+                          "synthetic line: drift per part %g is outside "
+                          "-0.001..0.001",
+                          c->drift_per_part);
     if (!(c->defect_rate >= 0 && c->defect_rate <= 1))
         return mb_err_set(err, MB_EINVAL,
                           "synthetic line: defect rate %g is outside 0..1",
@@ -668,6 +674,11 @@ static int make_frame(mb_synth *g, uint64_t index, int shot, int defect,
     mb_synth_shape shape;
     mb_synth_rng_seed(&r, c->seed, MB_SYNTH_STREAM_SHAPE, index, 0);
     mb_synth_shape_draw(g->fam, c->variation, &r, &shape);
+    if (c->drift_per_part != 0.0) {
+        /* the line's slow drift, held within the frame's allowance */
+        double creep = c->drift_per_part * (double)index;
+        shape.size *= 1.0 + fmax(-0.05, fmin(0.05, creep));
+    }
     mb_synth_shape_build(g->fam, &shape, g->step, &g->part);
     if (g->part.overflow)
         return MB_ERANGE;

@@ -147,6 +147,12 @@ typedef struct {
                                               TEAR, MISSING, CONTAMINATION)
                                               instead of each type's own */
     uint64_t seed;                       /**< default 1 */
+    double drift_per_part; /**< slow drift of the line: every part is
+                                scaled by 1 + drift_per_part * part index
+                                (e.g. 1e-4: a ring's diameter creeps up
+                                0.004 mm per part), the creep held at +-5 %
+                                (the frame's allowance); default 0; at most
+                                1e-3 in magnitude */
 } mb_synth_config;
 
 typedef struct {

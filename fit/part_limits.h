@@ -29,6 +29,8 @@ typedef struct {
                              for reference (0 when it does not exist) */
     double size_mean;   /**< mean pose scale of the good parts, px per unit */
     double size_lo, size_hi; /**< accepted pose scale band */
+    double size_sd;     /**< standard deviation of the good parts' size, px
+                             (the drift chart's sigma) */
     int n_landmarks;    /**< entries in the two arrays below */
     double *local_sigma; /**< per landmark: spread of the good parts'
                               deviation, px */

@@ -24,7 +24,7 @@ void mb_bands_params_default(mb_bands_params *p)
     p->alpha = 0.002;
     p->max_judged = 0;
     p->local_window = 3;
-    p->local_floor = 0.25;
+    p->local_floor = 0.4;
     p->screen_alpha = 1e-4;
 }
 
@@ -143,6 +143,7 @@ static void derive(const loo_scores *s, int excl, double alpha,
     lim->size_mean = sm;
     lim->size_lo = sm - tq * sd * infl;
     lim->size_hi = sm + tq * sd * infl;
+    lim->size_sd = sd;
 
     for (int q = 0; q < s->nj; q++) {
         double acc = 0.0;
@@ -461,8 +462,25 @@ int mb_bands_learn(const double *shapes, int ld, const mb_layout *layout,
             mb_gpa_align(shapes, ld, n, m, &gp, al, 2 * n, mean, NULL, NULL, NULL) == 0 &&
             mb_pca_compute(al, 2 * n, 2 * n, m, &pp, &pca, NULL) == 0) {
             mb_q_limit q;
-            if (mb_stats_q_limit_jm(pca.eig, pca.n_eig, k, p->alpha / (4 + nj), &q) == 0)
+            if (mb_stats_q_limit_jm(pca.eig, pca.n_eig, k, p->alpha / (4 + nj), &q) == 0) {
                 lim->spe_jm = q.q;
+                /* The residual spectrum in-sample is biased low but its
+                   shape (how the residual spreads over the discarded
+                   directions) is better determined by the whole spectrum
+                   than by the variance of a few dozen leave-one-out values.
+                   Scale the Jackson-Mudholkar limit by the ratio of the
+                   mean leave-one-out residual to theta1 and keep the wider
+                   of the two limits. */
+                double mu = 0.0;
+                for (int i = 0; i < m; i++)
+                    mu += s.spe[i];
+                mu /= m;
+                if (q.theta1 > 0 && mu > q.theta1) {
+                    double scaled = q.q * mu / q.theta1;
+                    if (scaled > lim->spe_limit)
+                        lim->spe_limit = scaled;
+                }
+            }
         }
         mb_pca_free(&pca);
         free(al);

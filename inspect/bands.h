@@ -19,8 +19,9 @@
  *   - residual outside the model (SPE): g chi-square_{1-a}(h) with g and h
  *     matched to the mean and variance of the leave-one-out SPE values
  *     (Box, Ann. Math. Statist. 25, 1954; the moment-matched form used for
- *     SPE limits by Nomikos and MacGregor, Technometrics 37(1), 1995); the
- *     Jackson-Mudholkar limit from the eigenvalues is kept for reference;
+ *     SPE limits by Nomikos and MacGregor, Technometrics 37(1), 1995), or the
+ *     Jackson-Mudholkar limit from the eigenvalues scaled up by the ratio of
+ *     the mean leave-one-out residual to theta1, whichever is wider;
  *   - local deviation: per landmark, the RMS normal deviation of the good
  *     parts pooled over a few neighbours on the same outline (corners and cut
  *     ends get their own, wider limits), times a t quantile with a
@@ -42,7 +43,9 @@ typedef struct {
                               automatic: about one per 8 good parts, >= 1 */
     int local_window;    /**< neighbours pooled each side per landmark;
                               default 3 */
-    double local_floor;  /**< smallest local-deviation limit, px; default 0.25 */
+    double local_floor;  /**< smallest local-deviation limit, px: the
+                              sub-pixel measurement's own scatter at edges
+                              and corners is about 0.05-0.15 px; default 0.4 */
     double screen_alpha; /**< a training part failing a check at this much
                               stricter level is an outlier; default 1e-4 */
 } mb_bands_params;

@@ -25,7 +25,7 @@ static const char *const synth_help =
     "S]\n"
     "                      [--size WxH] [--mm-per-px F] [--noise SIGMA]\n"
     "                      [--blur SIGMA] [--illumination F] [--variation F]\n"
-    "                      [--start I] [--format pgm|png]\n"
+    "                      [--start I] [--format pgm|png] [--drift F]\n"
     "\n"
     "Write frames of the synthetic production line and their ground truth.\n"
     "Every frame is a pure function of the options and its part index, so the\n"
@@ -56,6 +56,8 @@ static const char *const synth_help =
     "                     (default 1; 0 = every part nominal)\n"
     "  --start I          index of the first part (default 0)\n"
     "  --format F         pgm (default) or png\n"
+    "  --drift F          slow drift of the line: part I is scaled by\n"
+    "                     1 + F * I (held at +-5 %; |F| <= 0.001; default 0)\n"
     "\n"
     "Writes DIR/NAME_0001.pgm ... and DIR/labels.jsonl: one JSON object per\n"
     "frame with the image name, family, good or defect type with its size in\n"
@@ -124,7 +126,7 @@ int mb_cmd_synth(int argc, char **argv)
     const char *size = NULL, *format = "pgm", *defects = NULL;
     int count = 20, start = 0, help = 0, npos = 0;
     double rate = 0, mm_per_px = 0.1, noise = 2, blur = 1, illum = 0.12,
-           variation = 1;
+           variation = 1, drift = 0;
     char err[MB_ERR_LEN];
     const mb_opt opts[] = {
         {"family", MB_OPT_STRING, &family, NULL},
@@ -140,6 +142,7 @@ int mb_cmd_synth(int argc, char **argv)
         {"blur", MB_OPT_DOUBLE, &blur, NULL},
         {"illumination", MB_OPT_DOUBLE, &illum, NULL},
         {"variation", MB_OPT_DOUBLE, &variation, NULL},
+        {"drift", MB_OPT_DOUBLE, &drift, NULL},
         {"start", MB_OPT_INT, &start, NULL},
         {"format", MB_OPT_STRING, &format, NULL},
     };
@@ -203,6 +206,7 @@ int mb_cmd_synth(int argc, char **argv)
     cfg.blur_sigma = blur;
     cfg.illumination = illum;
     cfg.variation = variation;
+    cfg.drift_per_part = drift;
 
     mb_synth *gen = NULL;
     int rc = mb_synth_open(&cfg, &gen, err);

@@ -17,6 +17,7 @@
 int mb_cmd_teach(int argc, char **argv);
 int mb_cmd_model_info(int argc, char **argv);
 int mb_cmd_inspect(int argc, char **argv);
+int mb_cmd_run(int argc, char **argv);
 int mb_cmd_synth(int argc, char **argv);
 int mb_cmd_target(int argc, char **argv);
 int mb_cmd_calibrate(int argc, char **argv);

@@ -17,6 +17,7 @@ static const mb_command commands[] = {
     {"teach", mb_cmd_teach, "build a part model from good samples"},
     {"model-info", mb_cmd_model_info, "print the summary of a model file"},
     {"inspect", mb_cmd_inspect, "judge images against a taught model"},
+    {"run", mb_cmd_run, "run the inspection station (camera, PLC, shift logs)"},
     {"synth", mb_cmd_synth, "write frames of the synthetic production line"},
     {"target", mb_cmd_target, "write the printable calibration target (SVG)"},
     {"calibrate", mb_cmd_calibrate, "calibrate px to mm on the conveyor plane"},

@@ -35,6 +35,7 @@ struct mb_inspector {
        offset from the search's along the normal and the limit's corner
        allowance; per outline, its first dense sample */
     double *delta, *relax;
+    uint8_t *corner;
     int *dstart;
     double mean_cx, mean_cy;  /* centroid of the mean shape (model frame) */
     double *mean_angle;       /* n: angle of each landmark on the part, deg */
@@ -90,6 +91,7 @@ void mb_inspector_close(mb_inspector *ins)
     free(ins->cvalid);
     free(ins->delta);
     free(ins->relax);
+    free(ins->corner);
     free(ins->dstart);
     free(ins);
 }
@@ -147,11 +149,12 @@ int mb_inspector_create(const mb_part_model *pm, const mb_inspect_params *p,
     ins->cvalid = malloc((size_t)ins->n);
     ins->delta = malloc((size_t)ins->n * sizeof *ins->delta);
     ins->relax = malloc((size_t)ins->n * sizeof *ins->relax);
+    ins->corner = malloc((size_t)ins->n);
     ins->dstart = malloc((size_t)(l->n_outlines + 1) * sizeof *ins->dstart);
     if (!ins->y || !ins->b || !ins->z || !ins->work || !ins->mm_pts ||
         !ins->mean_angle || !ins->target || !ins->recon || !ins->nrm ||
         !ins->cdist || !ins->fwork || !ins->bfit || !ins->cvalid ||
-        !ins->delta || !ins->relax || !ins->dstart) {
+        !ins->delta || !ins->relax || !ins->corner || !ins->dstart) {
         rc = mb_err_set(err, MB_ENOMEM, "out of memory");
         goto fail;
     }
@@ -341,7 +344,13 @@ static void refit_curve(mb_inspector *ins, const mb_asm_result *res,
  *     own way, by up to about L theta / 8 for a chord of L px turning by
  *     theta radians at its ends; the allowance is CORNER_RELAX L theta with
  *     theta the larger turn at i and j, counted only beyond CORNER_FREE
- *     radians, so the smooth arcs and straight sides keep their limits;
+ *     radians, so the smooth arcs and straight sides keep their limits
+ *     (16 landmarks round a bolt hole turn by 0.39 rad each);
+ *   - where theta exceeds CORNER_SKIP (a corner of 30 degrees and more:
+ *     the cut end of a hose, a lip seal's tip) the normals between the
+ *     landmarks are ill-defined (they sweep through the corner and may run
+ *     along a side), so those samples are not judged at all: the
+ *     landmarks judge the corner as they did before;
  *   - its f = 0 sample is landmark i itself, judged by its curve distance
  *     cdist as before; and a run of DENSE_GAP_RUN dense samples without an
  *     edge is a gap.
@@ -350,6 +359,7 @@ static void refit_curve(mb_inspector *ins, const mb_asm_result *res,
  */
 #define CORNER_RELAX 0.125
 #define CORNER_FREE 0.35
+#define CORNER_SKIP 0.55
 #define DENSE_GAP_RUN 2
 
 /* Per landmark interval: delta and the corner allowance; per outline:
@@ -376,8 +386,9 @@ static void dense_prepare(mb_inspector *ins, const mb_asm_result *res,
             }
             int i = first + t, j = first + (t + 1) % c;
             double len = hypot(q[2 * j] - q[2 * i], q[2 * j + 1] - q[2 * i + 1]);
-            double th = fmax(turn[0], turn[1]) - CORNER_FREE;
-            ins->relax[i] = th > 0 ? CORNER_RELAX * len * th : 0.0;
+            double th = fmax(turn[0], turn[1]);
+            ins->relax[i] = th > CORNER_FREE ? CORNER_RELAX * len * (th - CORNER_FREE) : 0.0;
+            ins->corner[i] = th > CORNER_SKIP;
         }
         ins->dstart[o] = s;
         while (s < res->dense_n && res->dense_seg[s] < first + c)
@@ -429,6 +440,10 @@ static local_sample local_at(const mb_inspector *ins, const mb_asm_result *res,
     r.dist = res->dense_dist[k] - ((1.0 - f) * ins->delta[i] + f * ins->delta[j]);
     r.limit = (1.0 - f) * lim[i] + f * lim[j] + ins->relax[i];
     r.edge = r.judged = res->dense_valid[k];
+    if (ins->corner[i]) { /* not judged, and no gap */
+        r.edge = 1;
+        r.judged = 0;
+    }
     return r;
 }
 

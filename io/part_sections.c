@@ -72,6 +72,7 @@ static void add_limits(cJSON *payload, const mb_limits *l, int *ok)
     put(o, "size_mean", l->size_mean, ok);
     put(o, "size_lo", l->size_lo, ok);
     put(o, "size_hi", l->size_hi, ok);
+    put(o, "size_sd", l->size_sd, ok);
     put_array(o, "local_sigma", l->local_sigma, (size_t)l->n_landmarks, ok);
     put_array(o, "local_limit", l->local_limit, (size_t)l->n_landmarks, ok);
     put(o, "loo_rejects", l->loo_rejects, ok);
@@ -254,6 +255,7 @@ static int read_limits(const cJSON *payload, const char *name,
         (rc = get_num(o, name, par, "size_mean", &l->size_mean, err)) < 0 ||
         (rc = get_num(o, name, par, "size_lo", &l->size_lo, err)) < 0 ||
         (rc = get_num(o, name, par, "size_hi", &l->size_hi, err)) < 0 ||
+        (rc = get_num(o, name, par, "size_sd", &l->size_sd, err)) < 0 ||
         (rc = get_array(o, name, par, "local_sigma", n, l->local_sigma, err)) < 0 ||
         (rc = get_array(o, name, par, "local_limit", n, l->local_limit, err)) < 0 ||
         (rc = get_int(o, name, par, "loo_rejects", 0, 1000000, &l->loo_rejects, err)) < 0 ||

@@ -9,7 +9,7 @@
  *   "limits":   {"alpha", "n_train", "n_modes", "n_judged",
  *                "mode_band": [n_judged], "t2_limit", "t2_phase2",
  *                "t2_inflation", "spe_limit", "spe_jm", "size_mean",
- *                "size_lo", "size_hi", "local_sigma": [n],
+ *                "size_lo", "size_hi", "size_sd", "local_sigma": [n],
  *                "local_limit": [n], "loo_rejects", "frr_loo", "frr_upper"}
  *   "profiles": {"levels", "half_len", "shrink", "floor", "samples",
  *                "part_grey", "back_grey", "area", "size",

@@ -79,12 +79,12 @@ static void distort_n(const double k[4], double u, double v, double *ud,
 static int undistort_n(const double k[4], double ud, double vd, double *u,
                        double *v)
 {
-    double x = ud, y = vd;
+    double x = *u, y = *v; /* the caller's starting guess */
     for (int it = 0; it < 100; it++) {
         double fx, fy;
         distort_n(k, x, y, &fx, &fy);
         double ex = fx - ud, ey = fy - vd;
-        if (hypot(ex, ey) < 1e-14) {
+        if (ex * ex + ey * ey < 1e-28) {
             *u = x;
             *v = y;
             return 0;
@@ -172,14 +172,30 @@ static void inv_map_init(const rt_scene *sc, const mb_target *t, inv_map *m)
     m->sa = sin(sc->angle_deg * M_PI / 180.0);
 }
 
+static int inv_apply_from(const rt_scene *sc, const inv_map *m, double x,
+                          double y, double *pu, double *pv, double *X,
+                          double *Y, double *qx, double *qy);
+
 /* Pixel -> plane (frame 0) and target coordinates. */
 static int inv_apply(const rt_scene *sc, const inv_map *m, double x, double y,
                      double *X, double *Y, double *qx, double *qy)
 {
-    double u, v;
+    double u = (x - m->cx) / m->rho, v = (y - m->cy) / m->rho;
+    return inv_apply_from(sc, m, x, y, &u, &v, X, Y, qx, qy);
+}
+
+/* The same, starting Newton's method from (*u, *v) (normalised), which
+   gets the undistorted normalised position. */
+static int inv_apply_from(const rt_scene *sc, const inv_map *m, double x,
+                          double y, double *pu, double *pv, double *X,
+                          double *Y, double *qx, double *qy)
+{
+    double u = *pu, v = *pv;
     if (undistort_n(sc->k, (x - m->cx) / m->rho, (y - m->cy) / m->rho, &u,
                     &v) < 0)
         return -1;
+    *pu = u;
+    *pv = v;
     double xu = m->cx + m->rho * u, yu = m->cy + m->rho * v;
     double w = M(m->g, 2, 0) * xu + M(m->g, 2, 1) * yu + M(m->g, 2, 2);
     *X = (M(m->g, 0, 0) * xu + M(m->g, 0, 1) * yu + M(m->g, 0, 2)) / w;
@@ -240,23 +256,25 @@ void rt_dot_centroid(const rt_scene *sc, const mb_target *t, int r, int c,
 
 /* Scene at target point (qx, qy): grey of ink, sheet or conveyor, and the
    distance (mm) to the nearest edge between them. */
-static double scene_at(const rt_scene *sc, const mb_target *t, double qx,
-                       double qy, double *edge)
+static double scene_at(const rt_scene *sc, const mb_target *t,
+                       const char *marks, double qx, double qy, double *edge)
 {
     const double p = t->pitch, rd = 0.5 * t->dot_diameter,
                  rm = 0.5 * t->mark_diameter;
     int c = (int)floor(qx / p + 0.5), r = (int)floor(qy / p + 0.5);
     c = c < 0 ? 0 : c >= t->cols ? t->cols - 1 : c;
     r = r < 0 ? 0 : r >= t->rows ? t->rows - 1 : r;
-    double dd = hypot(qx - c * p, qy - r * p) - rd;
+    double ex = qx - c * p, ey = qy - r * p;
+    double dd = sqrt(ex * ex + ey * ey) - rd;
     double best = fabs(dd);
     int ink = dd <= 0.0;
     if (!sc->no_marks) {
         int mc = (int)floor(qx / p), mr = (int)floor(qy / p);
         mc = mc < 0 ? 0 : mc > t->cols - 2 ? t->cols - 2 : mc;
         mr = mr < 0 ? 0 : mr > t->rows - 2 ? t->rows - 2 : mr;
-        if (mb_target_cell_marked(t, mr, mc)) {
-            double dm = hypot(qx - (mc + 0.5) * p, qy - (mr + 0.5) * p) - rm;
+        if (marks[mr * (t->cols - 1) + mc]) {
+            double mx = qx - (mc + 0.5) * p, my = qy - (mr + 0.5) * p;
+            double dm = sqrt(mx * mx + my * my) - rm;
             best = fmin(best, fabs(dm));
             ink = ink || dm <= 0.0;
         }
@@ -296,12 +314,17 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
         return -1;
     double *buf = malloc(sizeof *buf * (size_t)w * h);
     double *tmp = malloc(sizeof *tmp * (size_t)w * h);
-    if (!buf || !tmp) {
+    char *marks = malloc((size_t)(t->rows - 1) * (t->cols - 1));
+    if (!buf || !tmp || !marks) {
         free(buf);
         free(tmp);
+        free(marks);
         mb_image_free(out);
         return -1;
     }
+    for (int r = 0; r + 1 < t->rows; r++)
+        for (int c = 0; c + 1 < t->cols; c++)
+            marks[r * (t->cols - 1) + c] = (char)mb_target_cell_marked(t, r, c);
     inv_map m;
     inv_map_init(sc, t, &m);
     /* Bound on mm per px over the frame (Frobenius norm of the inverse
@@ -317,19 +340,34 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
                 continue;
             smax = fmax(smax, hypot(hypot(X1 - X, Y1 - Y), hypot(X2 - X, Y2 - Y)));
         }
-    smax *= 1.5;
+    smax *= 1.1; /* margin for the variation between the samples */
     const int ss = sc->supersample > 0 ? sc->supersample : 1;
-    for (int y = 0; y < h; y++)
+    for (int y = 0; y < h; y++) {
+        /* Newton starts from the last pixel's solution, one pixel on. */
+        double gu = (0 - m.cx) / m.rho, gv = (y - m.cy) / m.rho;
         for (int x = 0; x < w; x++) {
             double X, Y, qx, qy, edge;
             double v = sc->conveyor;
-            if (inv_apply(sc, &m, x, y, &X, &Y, &qx, &qy) == 0) {
-                v = scene_at(sc, t, qx, qy, &edge);
+            double pu = gu, pv = gv;
+            int inv = inv_apply_from(sc, &m, x, y, &pu, &pv, &X, &Y, &qx, &qy);
+            if (inv == 0) {
+                gu = pu + 1.0 / m.rho;
+                gv = pv;
+            } else {
+                gu = (x + 1 - m.cx) / m.rho;
+                gv = (y - m.cy) / m.rho;
+            }
+            if (inv == 0) {
+                v = scene_at(sc, t, marks, qx, qy, &edge);
                 if (edge < 0.75 * smax && ss > 1) {
                     /* Local affine map of the pixel square to the target. */
                     double X1, Y1, X2, Y2, q1x, q1y, q2x, q2y;
-                    inv_apply(sc, &m, x + 0.5, y, &X1, &Y1, &q1x, &q1y);
-                    inv_apply(sc, &m, x, y + 0.5, &X2, &Y2, &q2x, &q2y);
+                    double u1 = pu + 0.5 / m.rho, v1 = pv;
+                    double u2 = pu, v2 = pv + 0.5 / m.rho;
+                    inv_apply_from(sc, &m, x + 0.5, y, &u1, &v1, &X1, &Y1,
+                                   &q1x, &q1y);
+                    inv_apply_from(sc, &m, x, y + 0.5, &u2, &v2, &X2, &Y2,
+                                   &q2x, &q2y);
                     double ax = 2 * (q1x - qx), ay = 2 * (q1y - qy);
                     double bx = 2 * (q2x - qx), by = 2 * (q2y - qy);
                     double sum = 0.0, e2;
@@ -337,7 +375,8 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
                         for (int i = 0; i < ss; i++) {
                             double dx = (i + 0.5) / ss - 0.5;
                             double dy = (j + 0.5) / ss - 0.5;
-                            sum += scene_at(sc, t, qx + ax * dx + bx * dy,
+                            sum += scene_at(sc, t, marks,
+                                            qx + ax * dx + bx * dy,
                                             qy + ay * dx + by * dy, &e2);
                         }
                     v = sum / (ss * ss);
@@ -351,12 +390,14 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
             }
             buf[(size_t)y * w + x] = v;
         }
+    }
     if (sc->blur > 0.0) {
         int rad = (int)ceil(4.0 * sc->blur);
         double *k = malloc(sizeof *k * (2 * (size_t)rad + 1)), ks = 0.0;
         if (!k) {
             free(buf);
             free(tmp);
+            free(marks);
             mb_image_free(out);
             return -1;
         }
@@ -396,5 +437,6 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
         }
     free(buf);
     free(tmp);
+    free(marks);
     return 0;
 }

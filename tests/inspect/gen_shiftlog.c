@@ -66,7 +66,7 @@ static void num(FILE *f, double v)
         mb_json_format_double(v, b);
         fputs(b, f);
     } else {
-        fprintf(f, "%.6g", v);
+        fprintf(f, "%.9g", v); /* as io/shiftlog.c writes */
     }
 }
 
