@@ -27,6 +27,7 @@
 #include "render.h"
 #include "synth_internal.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 

@@ -1,7 +1,7 @@
 /*
  * inspect/station.c - the station loop (see station.h).
  *
- * One thread, one poll loop: the signalfd and the PLC sockets are polled
+ * One thread, one poll loop: the PLC sockets are polled
  * with a short timeout; the camera is read with its own short timeout in
  * between, so the PLC is served at least every few milliseconds while a
  * part is inspected in about two. Nothing is allocated per part on the
@@ -34,12 +34,29 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/signalfd.h>
 #include <sys/stat.h>
 #include <systemd/sd-daemon.h>
 #include <time.h>
 #include <unistd.h>
 #include <zlib.h>
+
+/*
+ * The only globals: what the signal handler saw. A handler does nothing
+ * else. (A signalfd would be neater, but OpenBLAS starts its threads
+ * before main, and a process signal is delivered to any thread that does
+ * not block it: those threads would take SIGTERM with its default action.
+ * Handlers run in whichever thread; the loop wakes at least every 20 ms.)
+ */
+static volatile sig_atomic_t stop_requested;
+static volatile sig_atomic_t reload_requested;
+
+static void on_signal(int sig)
+{
+    if (sig == SIGHUP)
+        reload_requested = 1;
+    else
+        stop_requested = 1;
+}
 
 /* Fault codes of PLC register 11 (README: "Fault codes"). */
 enum {
@@ -84,8 +101,8 @@ struct mb_station {
     int64_t cam_retry_ms, cam_lost_ms;
     mb_plc *plc;
     mb_shiftlog *log;
-    int sigfd;
-    sigset_t oldmask;
+    struct sigaction old_term, old_int, old_hup;
+    int handlers_set;
     uint64_t max_parts;
     mb_station_stats stats;
     uint32_t seq;
@@ -663,7 +680,6 @@ int mb_station_open(const char *config_path, uint64_t max_parts,
     int rc;
     if (!st)
         return mb_err_set(err, MB_ENOMEM, "out of memory");
-    st->sigfd = -1;
     st->max_parts = max_parts;
     snprintf(st->config_path, sizeof st->config_path, "%s", config_path);
     if ((rc = mb_station_config_load(config_path, &st->cfg, err)) < 0)
@@ -715,17 +731,18 @@ int mb_station_open(const char *config_path, uint64_t max_parts,
         camera_lost(st, MB_ENODEV, cerr, mono_ms());
     }
 
-    sigset_t mask;
-    sigemptyset(&mask);
-    sigaddset(&mask, SIGTERM);
-    sigaddset(&mask, SIGINT);
-    sigaddset(&mask, SIGHUP);
-    sigprocmask(SIG_BLOCK, &mask, &st->oldmask);
-    st->sigfd = signalfd(-1, &mask, SFD_NONBLOCK | SFD_CLOEXEC);
-    if (st->sigfd < 0) {
-        rc = mb_err_set(err, MB_EIO, "signalfd: %s", strerror(errno));
-        goto fail;
-    }
+    struct sigaction sa;
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_signal;
+    sigemptyset(&sa.sa_mask);
+    sa.sa_flags = 0; /* no SA_RESTART: poll returns EINTR at once */
+    stop_requested = 0;
+    reload_requested = 0;
+    sigaction(SIGTERM, &sa, &st->old_term);
+    sigaction(SIGINT, &sa, &st->old_int);
+    sigaction(SIGHUP, &sa, &st->old_hup);
+    st->handlers_set = 1;
+    signal(SIGPIPE, SIG_IGN); /* a PLC that hangs up is an error return */
     *out = st;
     return MB_OK;
 fail:
@@ -740,11 +757,8 @@ int mb_station_run(mb_station *st)
     mb_verdict v;
     while (!stop) {
         int64_t now = mono_ms();
-        struct pollfd fds[1 + MB_PLC_MAX_CONN + 2];
+        struct pollfd fds[MB_PLC_MAX_CONN + 2];
         int nfds = 0;
-        fds[nfds].fd = st->sigfd;
-        fds[nfds].events = POLLIN;
-        nfds++;
         if (st->plc)
             nfds += mb_plc_pollfds(st->plc, fds + nfds, (int)(sizeof fds / sizeof fds[0]) - nfds);
         int wait = st->plc ? mb_plc_timeout_ms(st->plc, now) : 50;
@@ -755,16 +769,13 @@ int mb_station_run(mb_station *st)
             say(3, "poll: %s", strerror(errno));
             return MB_EIO;
         }
-        if (fds[0].revents & POLLIN) {
-            struct signalfd_siginfo si;
-            while (read(st->sigfd, &si, sizeof si) == (ssize_t)sizeof si) {
-                if (si.ssi_signo == SIGHUP) {
-                    reload(st);
-                } else {
-                    say(6, "signal %u: finishing", si.ssi_signo);
-                    stop = 1;
-                }
-            }
+        if (reload_requested) {
+            reload_requested = 0;
+            reload(st);
+        }
+        if (stop_requested) {
+            say(6, "stop requested: finishing");
+            stop = 1;
         }
         now = mono_ms();
         if (st->plc) {
@@ -896,9 +907,10 @@ void mb_station_close(mb_station *st)
 {
     if (!st)
         return;
-    if (st->sigfd >= 0) {
-        close(st->sigfd);
-        sigprocmask(SIG_SETMASK, &st->oldmask, NULL);
+    if (st->handlers_set) {
+        sigaction(SIGTERM, &st->old_term, NULL);
+        sigaction(SIGINT, &st->old_int, NULL);
+        sigaction(SIGHUP, &st->old_hup, NULL);
     }
     mb_source_close(st->src);
     mb_plc_close(st->plc);

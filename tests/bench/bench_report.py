@@ -16,7 +16,7 @@ import sys
 import time
 
 
-def run_measured(cmd):
+def run_measured(cmd, env=None):
     # one child at a time, so RUSAGE_CHILDREN's maxrss is this child's
     # peak as long as it is the largest so far (each run is measured in a
     # fresh python process for that reason)
@@ -25,7 +25,7 @@ def run_measured(cmd):
             "dt=time.monotonic()-t;"
             "print(r.returncode,dt,resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
     out = subprocess.run([sys.executable, "-c", code] + cmd, capture_output=True,
-                         text=True, check=True).stdout.split()
+                         text=True, check=True, env=env).stdout.split()
     return int(out[0]), float(out[1]), int(out[2]) / 1024.0
 
 
@@ -50,6 +50,9 @@ def main():
     subprocess.run(["cat"] + files, stdout=subprocess.DEVNULL, check=True)
     rc, dt, mb = run_measured([modeband, "report", "--logs", logs, "--quiet"])
     print("report (terminal only):        %.2f s, peak %.1f MB (exit %d)" % (dt, mb, rc))
+    one = dict(os.environ, OPENBLAS_NUM_THREADS="1")
+    rc1, dt1, mb1 = run_measured([modeband, "report", "--logs", logs, "--quiet"], one)
+    print("the same, OPENBLAS_NUM_THREADS=1: %.2f s, peak %.1f MB (exit %d)" % (dt1, mb1, rc1))
     rc2, dt2, mb2 = run_measured([modeband, "report", "--logs", logs, "--quiet",
                                   "--html", os.path.join(scratch, "week.html"),
                                   "--csv", os.path.join(scratch, "week.csv")])

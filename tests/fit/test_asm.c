@@ -16,6 +16,14 @@
  *   - a nick 4 px deep: measured - model at the nick within 0.5 px of -4,
  *     while the model's reconstruction stays within 0.35 px of the good
  *     outline there (the wide bound keeps the defect visible);
+ *   - the dense measurement between landmarks (asm.h): on a good part
+ *     every dense point measured lies within 0.1 px RMS (0.5 px at most)
+ *     of the true outline, about one per px along it; a slit 4 px wide
+ *     and 6 px deep cut midway between two landmarks, which the landmarks
+ *     themselves do not see (|dist| < 1 px there), is found by at least 2
+ *     dense samples deeper than 3 px, all within the slit's width and in
+ *     that landmark interval, while no dense sample farther than 4 px from
+ *     the slit deviates by more than 0.5 px;
  *   - no allocation per frame after the first (malloc, calloc, realloc
  *     wrapped by the linker and counted);
  *   - "not converged" on an impossible image.
@@ -657,6 +665,145 @@ static void test_search_nick(void **state)
     mb_locate_close(loc);
 }
 
+/* Measured dense point k of r. */
+static void dense_point(const mb_asm_result *r, int k, double *x, double *y)
+{
+    *x = r->dense_xy[2 * k] + r->dense_dist[k] * r->dense_normal[2 * k];
+    *y = r->dense_xy[2 * k + 1] + r->dense_dist[k] * r->dense_normal[2 * k + 1];
+}
+
+static void test_search_slit(void **state)
+{
+    fixture *f = *state;
+    asmp_model *t = &f->model[ASMP_FLANGE];
+    asmp_look lk = asmp_backlit();
+    char err[MB_ERR_LEN];
+    mb_locate *loc = NULL;
+    mb_asm *as = NULL;
+    assert_int_equal(mb_locate_create(t->sm, t->pm, W, H, NULL, &loc, err), MB_OK);
+    assert_int_equal(mb_asm_create(t->sm, t->pm, W, H, NULL, &as, err), MB_OK);
+    uint64_t rng = 4242;
+    asmp_part part = asmp_random(ASMP_FLANGE, SIZE, W, H, &rng);
+    double xy[2 * POINTS], nxy[2 * POINTS];
+    asmp_landmarks(&part, &t->layout, xy);
+    assert_int_equal(mb_profile_normals(&t->layout, xy, nxy), MB_OK);
+    scene sc;
+    asmp_scene(&part, &lk, 777, &sc);
+
+    /* the good part first: dense points on the true outline */
+    shoot(f, &sc);
+    mb_locate_result lr;
+    mb_asm_result r;
+    assert_int_equal(mb_locate_run(loc, f->pyr, &lr), MB_OK);
+    assert_int_equal(mb_asm_search(as, f->pyr, lr.candidates, lr.n_candidates, &r), MB_OK);
+    assert_true(r.converged);
+    double ss = 0.0, worst = 0.0, len = 0.0;
+    for (int k = 0; k < r.dense_n; k++) {
+        double x, y;
+        if (!r.dense_valid[k])
+            continue;
+        dense_point(&r, k, &x, &y);
+        double d = scene_outline_distance(&sc, x, y);
+        ss += d * d;
+        worst = fmax(worst, d);
+    }
+    for (int o = 0, first = 0; o < t->layout.n_outlines; first += t->layout.counts[o], o++)
+        for (int q = 0; q < t->layout.counts[o]; q++) {
+            int i = first + q, j = first + (q + 1) % t->layout.counts[o];
+            len += hypot(r.model_xy[2 * j] - r.model_xy[2 * i],
+                         r.model_xy[2 * j + 1] - r.model_xy[2 * i + 1]);
+        }
+    double rms = sqrt(ss / r.dense_n_valid);
+    printf("dense measurement, good flange: %d samples (%d with an edge) over "
+           "%.0f px of model outline (%d landmarks), spacing %.3f px; distance "
+           "to the true outline RMS %.3f px, max %.3f px\n", r.dense_n,
+           r.dense_n_valid, len, r.n_points, r.dense_spacing, rms, worst);
+    assert_int_equal(r.dense_n_valid, r.dense_n);
+    assert_true(r.dense_n >= (int)len && r.dense_n <= (int)len + r.n_points);
+    assert_true(r.dense_spacing > 0.9 && r.dense_spacing <= 1.0);
+    assert_true(rms < 0.1);
+    assert_true(worst < 0.5);
+
+    /* a slit 4 px wide, 6 px deep, midway between two landmarks of a
+       straight side of the outer edge (see test_search_nick) */
+    const int at = t->layout.counts[0] / 2 + 5;
+    const double depth = 6.0, half_w = 2.0, out = 3.0;
+    double mx = 0.5 * (xy[2 * at] + xy[2 * at + 2]), my = 0.5 * (xy[2 * at + 1] + xy[2 * at + 3]);
+    double nx = nxy[2 * at] + nxy[2 * at + 2], ny = nxy[2 * at + 1] + nxy[2 * at + 3];
+    double nn = hypot(nx, ny);
+    nx /= nn;
+    ny /= nn;
+    scene_shape *h = &sc.hole[sc.n_hole++];
+    memset(h, 0, sizeof *h);
+    h->type = SCENE_RRECT;
+    h->a = half_w;                 /* along the outline */
+    h->b = 0.5 * (depth + out);    /* along the normal, from -depth to +out */
+    h->cx = mx + 0.5 * (out - depth) * nx;
+    h->cy = my + 0.5 * (out - depth) * ny;
+    h->angle = atan2(nx, -ny);     /* the tangent (-ny, nx) */
+    shoot(f, &sc);
+    assert_int_equal(mb_locate_run(loc, f->pyr, &lr), MB_OK);
+    assert_int_equal(mb_asm_search(as, f->pyr, lr.candidates, lr.n_candidates, &r), MB_OK);
+    assert_true(r.converged);
+    /* the two landmarks either side of the slit (nearest to its mouth) */
+    int l1 = -1, l2 = -1;
+    double d1 = INFINITY, d2 = INFINITY;
+    for (int i = 0; i < t->layout.counts[0]; i++) {
+        double d = hypot(r.model_xy[2 * i] - mx, r.model_xy[2 * i + 1] - my);
+        if (d < d1) {
+            d2 = d1;
+            l2 = l1;
+            d1 = d;
+            l1 = i;
+        } else if (d < d2) {
+            d2 = d;
+            l2 = i;
+        }
+    }
+    int seg = abs(l1 - l2) == 1 ? (l1 < l2 ? l1 : l2) : -1;
+    int deep = 0, far_bad = 0;
+    double deepest = 0.0, far_worst = 0.0;
+    for (int k = 0; k < r.dense_n; k++) {
+        double dm = hypot(r.dense_xy[2 * k] - mx, r.dense_xy[2 * k + 1] - my);
+        if (r.dense_valid[k] && r.dense_dist[k] < -3.0) {
+            deep++;
+            deepest = fmin(deepest, r.dense_dist[k]);
+            assert_true(dm < half_w + 0.5);
+            assert_int_equal(r.dense_seg[k], seg);
+            assert_true(r.dense_frac[k] > 0.0);
+        }
+        if (dm > half_w + 4.0 && r.dense_valid[k]) {
+            far_worst = fmax(far_worst, fabs(r.dense_dist[k]));
+            far_bad += fabs(r.dense_dist[k]) > 0.5;
+        }
+    }
+    printf("slit 4 px wide, 6 px deep between landmarks %d and %d (%.2f and "
+           "%.2f px from its mouth): landmark distances %.2f and %.2f px; %d "
+           "dense samples deeper than 3 px (deepest %.2f px); elsewhere at "
+           "most %.2f px\n", l1, l2, d1, d2, r.dist[l1], r.dist[l2], deep,
+           deepest, far_worst);
+    assert_true(seg >= 0);
+    assert_true(d1 > half_w && d2 > half_w);
+    assert_true(fabs(r.dist[l1]) < 1.0 && fabs(r.dist[l2]) < 1.0);
+    assert_true(deep >= 2);
+    assert_true(deepest < -4.0);
+    assert_int_equal(far_bad, 0);
+    /* off: no dense samples */
+    mb_asm_params ap;
+    mb_asm_params_default(&ap);
+    ap.dense_step = 0.0;
+    mb_asm *off = NULL;
+    assert_int_equal(mb_asm_create(t->sm, t->pm, W, H, &ap, &off, err), MB_OK);
+    assert_int_equal(mb_asm_search(off, f->pyr, lr.candidates, lr.n_candidates, &r), MB_OK);
+    assert_int_equal(r.dense_n, 0);
+    ap.dense_step = 0.1;
+    mb_asm_close(off);
+    off = NULL;
+    assert_int_equal(mb_asm_create(t->sm, t->pm, W, H, &ap, &off, err), MB_EINVAL);
+    mb_asm_close(as);
+    mb_locate_close(loc);
+}
+
 static void test_search_no_alloc(void **state)
 {
     fixture *f = *state;
@@ -762,6 +909,7 @@ int main(void)
         cmocka_unit_test(test_search_good_parts),
         cmocka_unit_test(test_search_frontlit_and_starts),
         cmocka_unit_test(test_search_nick),
+        cmocka_unit_test(test_search_slit),
         cmocka_unit_test(test_search_no_alloc),
         cmocka_unit_test(test_search_not_converged),
     };

@@ -21,9 +21,12 @@ size=640x512
     --out "$tmp/good" >/dev/null || bad "synth good"
 "$mb" teach --images "$tmp/good" --out "$tmp/model.json" --mm-per-px 0.1 \
     >"$tmp/teach.txt" 2>&1 || { bad "teach"; cat "$tmp/teach.txt"; }
-# defects the local and size checks must catch (all of 0.5 mm and more)
+# defects the local and size checks must catch (all of 0.5 mm and more);
+# tears (slits 0.2-0.5 mm wide) and contamination (blobs, fibres 0.15-0.3 mm
+# wide) are narrower than the landmark spacing: the dense measurement
+# between landmarks must see them
 "$mb" synth --family "$fam" --count 40 --seed 22 --size $size --lighting "$light" \
-    --defect-rate 0.5 --defects nick,flash,size,missing,empty,deform \
+    --defect-rate 0.5 --defects nick,flash,size,missing,empty,deform,tear,contamination \
     --out "$tmp/batch" >/dev/null || bad "synth batch"
 "$mb" inspect --model "$tmp/model.json" --json "$tmp"/batch/*.pgm >"$tmp/out.jsonl"
 [ $? -eq 0 ] && ok || bad "inspect exit status"

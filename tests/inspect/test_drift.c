@@ -6,7 +6,9 @@
  */
 #include "drift.h"
 #include "error.h"
+#include "image.h"
 #include "report.h"
+#include "synth.h"
 
 #include <math.h>
 #include <setjmp.h>
@@ -195,6 +197,38 @@ static void test_empty_report(void **state)
     mb_report_close(r);
 }
 
+/* The synthetic line's slow drift: at variation 0 part I has size factor
+   exactly 1 + F * I (held at +-5 %), and the same part index without drift
+   is unchanged; a drift out of range is refused. */
+static void test_synth_drift(void **state)
+{
+    (void)state;
+    mb_synth_config cfg;
+    mb_synth_config_default(&cfg, MB_SYNTH_RING);
+    cfg.width = 640;
+    cfg.height = 512;
+    cfg.mm_per_px = 0.1;
+    cfg.variation = 0;
+    cfg.drift_per_part = 1e-4;
+    mb_synth *g = NULL;
+    char err[MB_ERR_LEN];
+    assert_int_equal(mb_synth_open(&cfg, &g, err), 0);
+    mb_image frame;
+    assert_int_equal(mb_image_alloc(cfg.width, cfg.height, &frame), 0);
+    mb_synth_truth t;
+    static const uint64_t idx[4] = {0, 100, 400, 2000};
+    static const double want[4] = {1.0, 1.01, 1.04, 1.05};
+    for (int i = 0; i < 4; i++) {
+        assert_int_equal(mb_synth_make(g, idx[i], 0, MB_SYNTH_NONE, &frame, &t), 0);
+        assert_true(fabs(t.size - want[i]) < 1e-12);
+    }
+    mb_synth_close(g);
+    cfg.drift_per_part = 0.01;
+    assert_int_equal(mb_synth_open(&cfg, &g, err), MB_EINVAL);
+    assert_non_null(strstr(err, "drift"));
+    mb_image_free(&frame);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -203,6 +237,7 @@ int main(void)
         cmocka_unit_test(test_signal_and_clear),
         cmocka_unit_test(test_cp_cpk_example),
         cmocka_unit_test(test_empty_report),
+        cmocka_unit_test(test_synth_drift),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
