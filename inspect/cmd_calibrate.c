@@ -209,7 +209,7 @@ int mb_cmd_calibrate(int argc, char **argv)
                 "conveyor in every frame, that the frames are in focus and "
                 "that the camera did not move. Saved anyway to %s.\n",
                 cal.rms_px, max_rms, out);
-    if (cal.coverage < 0.25)
+    if (cal.coverage < 0.25 && (radial > 0 || !no_tan))
         fprintf(stderr,
                 "modeband calibrate: note: the dots covered only %.0f %% of "
                 "the frame; lens distortion outside them is extrapolated. "
