@@ -214,7 +214,8 @@ static int plane_of(const mb_calib *cal, const double g[9], double xu,
     double w = mb_calib_homography_apply(g, xu, yu, X, Y);
     if (!(fabs(w) > 0.0) || !isfinite(*X) || !isfinite(*Y))
         return MB_ERANGE;
-    double wf = HM(cal->h, 2, 0) * *X + HM(cal->h, 2, 1) * *Y + HM(cal->h, 2, 2);
+    double wf =
+        HM(cal->h, 2, 0) * *X + HM(cal->h, 2, 1) * *Y + HM(cal->h, 2, 2);
     return wf > 0.0 ? MB_OK : MB_ERANGE;
 }
 
@@ -249,8 +250,8 @@ int mb_calib_points_to_mm(const mb_calib *cal, int n, const double *xy_px,
         return MB_ERANGE;
     for (int i = 0; i < n; i++) {
         double xu, yu, X, Y;
-        int rc = mb_calib_undistort(cal, xy_px[2 * i], xy_px[2 * i + 1], &xu,
-                                    &yu);
+        int rc =
+            mb_calib_undistort(cal, xy_px[2 * i], xy_px[2 * i + 1], &xu, &yu);
         if (rc < 0 || (rc = plane_of(cal, g, xu, yu, &X, &Y)) < 0)
             return rc;
         xy_mm[2 * i] = X;
@@ -294,14 +295,12 @@ int mb_calib_local_scale(const mb_calib *cal, double x, double y,
     double disc = sqrt(fmax(fro * fro - 4.0 * dj * dj, 0.0));
     out->mm_per_px = sqrt(fabs(dj));
     out->mm_per_px_max = sqrt(0.5 * (fro + disc));
-    out->mm_per_px_min = out->mm_per_px_max > 0.0
-                             ? fabs(dj) / out->mm_per_px_max
-                             : 0.0;
+    out->mm_per_px_min =
+        out->mm_per_px_max > 0.0 ? fabs(dj) / out->mm_per_px_max : 0.0;
     return MB_OK;
 }
 
-int mb_calib_check_frame(const mb_calib *cal, int width, int height,
-                         char *err)
+int mb_calib_check_frame(const mb_calib *cal, int width, int height, char *err)
 {
     if (!cal)
         return mb_err_set(err, MB_EINVAL, "calibration: none given");
@@ -444,8 +443,8 @@ int mb_calib_homography_dlt(int n, const double *src, const double *dst,
         }
     }
     double S[9], VT[81], superb[8];
-    lapack_int info = LAPACKE_dgesvd(LAPACK_COL_MAJOR, 'N', 'A', m, 9, A, m,
-                                     S, NULL, 1, VT, 9, superb);
+    lapack_int info = LAPACKE_dgesvd(LAPACK_COL_MAJOR, 'N', 'A', m, 9, A, m, S,
+                                     NULL, 1, VT, 9, superb);
     free(A);
     if (info != 0)
         return MB_ENUMERIC;
@@ -475,10 +474,10 @@ int mb_calib_homography_dlt(int n, const double *src, const double *dst,
 
 typedef struct {
     const mb_calib_problem *prob;
-    int nobs;          /* n_points * n_frames */
-    int m, n;          /* residuals, unknowns */
-    int nd;            /* distortion unknowns */
-    int dist_at[4];    /* k1 k2 p1 p2: index in theta, or -1 (held at 0) */
+    int nobs;       /* n_points * n_frames */
+    int m, n;       /* residuals, unknowns */
+    int nd;         /* distortion unknowns */
+    int dist_at[4]; /* k1 k2 p1 p2: index in theta, or -1 (held at 0) */
     double cx, cy, rho;
     double X0, Y0, L;  /* plane normalisation */
     const double *obs; /* 2 nobs normalised observations (corrected) */
@@ -556,10 +555,10 @@ static void lm_eval(const lm_model *M, const double *th, double *r, double *J)
             if (!J)
                 continue;
             /* Chain rule: residual = D(hom(plane(theta))). d(u, v)/dh: */
-            double duh[8] = {a / w, b / w, 1.0 / w, 0, 0, 0, -u * a / w,
-                             -u * b / w};
-            double dvh[8] = {0, 0, 0, a / w, b / w, 1.0 / w, -v * a / w,
-                             -v * b / w};
+            double duh[8] = {a / w, b / w, 1.0 / w,    0,
+                             0,     0,     -u * a / w, -u * b / w};
+            double dvh[8] = {0,     0,       0,          a / w,
+                             b / w, 1.0 / w, -v * a / w, -v * b / w};
             for (int j = 0; j < 8; j++) {
                 J[ru + (size_t)m * j] = Jd[0] * duh[j] + Jd[2] * dvh[j];
                 J[rv + (size_t)m * j] = Jd[1] * duh[j] + Jd[3] * dvh[j];
@@ -580,8 +579,12 @@ static void lm_eval(const lm_model *M, const double *th, double *r, double *J)
             /* Pose: d(a, b)/d(angle, sx, sy), through d(u, v)/d(a, b). */
             double uab[4] = {(th[0] - u * th[6]) / w, (th[3] - v * th[6]) / w,
                              (th[1] - u * th[7]) / w, (th[4] - v * th[7]) / w};
-            double abp[6] = {(-s * qx - c * qy) / M->L, (c * qx - s * qy) / M->L,
-                             1.0, 0.0, 0.0, 1.0};
+            double abp[6] = {(-s * qx - c * qy) / M->L,
+                             (c * qx - s * qy) / M->L,
+                             1.0,
+                             0.0,
+                             0.0,
+                             1.0};
             for (int t = 0; t < 3; t++) {
                 double da = abp[2 * t], db = abp[2 * t + 1];
                 double du_ = uab[0] * da + uab[2] * db;
@@ -633,8 +636,8 @@ static int lm_run(const lm_model *M, double *th, int max_it, lm_work *W,
             const double *col = W->J + (size_t)m * j;
             double cn = cblas_dnrm2(m, col, 1);
             if (cn > 0.0)
-                gmax = fmax(gmax, fabs(cblas_ddot(m, col, 1, W->r, 1)) /
-                                      (cn * rn));
+                gmax = fmax(gmax,
+                            fabs(cblas_ddot(m, col, 1, W->r, 1)) / (cn * rn));
         }
         if (gmax <= gtol)
             return MB_OK;
@@ -649,8 +652,8 @@ static int lm_run(const lm_model *M, double *th, int max_it, lm_work *W,
         for (int i = 0; i < m; i++)
             W->B[i] = -W->r[i];
         memset(W->B + m, 0, sizeof *W->B * (size_t)n);
-        lapack_int info = LAPACKE_dgels(LAPACK_COL_MAJOR, 'N', ma, n, 1, W->A,
-                                        ma, W->B, ma);
+        lapack_int info =
+            LAPACKE_dgels(LAPACK_COL_MAJOR, 'N', ma, n, 1, W->A, ma, W->B, ma);
         if (info != 0)
             return mb_err_set(err, MB_ENUMERIC,
                               "calibration: the least-squares step failed "
@@ -680,7 +683,8 @@ static int lm_run(const lm_model *M, double *th, int max_it, lm_work *W,
             cost = cost_new;
             lm_eval(M, th, W->r, W->J);
             for (int j = 0; j < n; j++)
-                W->D[j] = fmax(W->D[j], cblas_dnrm2(m, W->J + (size_t)m * j, 1));
+                W->D[j] =
+                    fmax(W->D[j], cblas_dnrm2(m, W->J + (size_t)m * j, 1));
             if (gain > 0.75)
                 lambda = fmax(lambda / 3.0, 1e-15);
             else if (gain < 0.25)
@@ -726,8 +730,8 @@ static void polygon_centroid(const double *x, const double *y, int nv,
 
 /* Observations corrected for the offset of the imaged dot's area centroid
    from the image of its centre, under the model th. */
-static void correct_bias(const lm_model *M, const double *th,
-                         const double *raw, double *obs)
+static void correct_bias(const lm_model *M, const double *th, const double *raw,
+                         double *obs)
 {
     const mb_calib_problem *P = M->prob;
     double k[4], xs[BIAS_VERTICES], ys[BIAS_VERTICES];
@@ -770,16 +774,16 @@ static double hull_area(double *pts, int n, double *hull)
     qsort(pts, (size_t)n, 2 * sizeof *pts, cmp_xy);
     int k = 0;
     for (int i = 0; i < n; i++) {
-        while (k >= 2 && cross3(hull + 2 * (k - 2), hull + 2 * (k - 1),
-                                pts + 2 * i) <= 0)
+        while (k >= 2 &&
+               cross3(hull + 2 * (k - 2), hull + 2 * (k - 1), pts + 2 * i) <= 0)
             k--;
         hull[2 * k] = pts[2 * i];
         hull[2 * k + 1] = pts[2 * i + 1];
         k++;
     }
     for (int i = n - 2, lo = k + 1; i >= 0; i--) {
-        while (k >= lo && cross3(hull + 2 * (k - 2), hull + 2 * (k - 1),
-                                 pts + 2 * i) <= 0)
+        while (k >= lo &&
+               cross3(hull + 2 * (k - 2), hull + 2 * (k - 1), pts + 2 * i) <= 0)
             k--;
         hull[2 * k] = pts[2 * i];
         hull[2 * k + 1] = pts[2 * i + 1];
@@ -844,9 +848,8 @@ static int initialise(lm_model *M, double *th, char *err)
     double H0[9], H0i[9], Hf[9], Nimg[9] = {0}, Npl[9] = {0};
     int rc;
     for (int f = 0; f < P->n_frames; f++) {
-        rc = mb_calib_homography_dlt(N, P->target_xy,
-                                     P->image_xy + 2 * (size_t)N * f,
-                                     f == 0 ? H0 : Hf);
+        rc = mb_calib_homography_dlt(
+            N, P->target_xy, P->image_xy + 2 * (size_t)N * f, f == 0 ? H0 : Hf);
         if (rc < 0)
             return mb_err_set(err, rc == MB_ENOMEM ? MB_ENOMEM : MB_EDEGENERATE,
                               "calibration: frame %d: no homography fits its "
@@ -931,9 +934,8 @@ static int initialise(lm_model *M, double *th, char *err)
     return MB_OK;
 }
 
-int mb_calib_estimate(const mb_calib_problem *prob,
-                      const mb_calib_options *opt, mb_calib *out,
-                      double *residuals, char *err)
+int mb_calib_estimate(const mb_calib_problem *prob, const mb_calib_options *opt,
+                      mb_calib *out, double *residuals, char *err)
 {
     mb_calib_options def;
     if (!prob || !out || !prob->target_xy || !prob->image_xy)
@@ -1017,8 +1019,7 @@ int mb_calib_estimate(const mb_calib_problem *prob,
     if (prob->dot_radius > 0.0)
         for (int pass = 0; pass < opt->bias_passes; pass++) {
             correct_bias(&M, th, raw, obs);
-            if ((rc = lm_run(&M, th, opt->max_iterations, &W, &iters, err)) <
-                0)
+            if ((rc = lm_run(&M, th, opt->max_iterations, &W, &iters, err)) < 0)
                 goto fail;
         }
 
@@ -1037,11 +1038,11 @@ int mb_calib_estimate(const mb_calib_problem *prob,
     c.p1 = k[2];
     c.p2 = k[3];
     {
-        double Hn[9] = {th[0], th[3], th[6], th[1], th[4], th[7],
-                        th[2], th[5], 1.0};
+        double Hn[9] = {th[0], th[3], th[6], th[1], th[4],
+                        th[7], th[2], th[5], 1.0};
         double Ni[9] = {M.rho, 0, 0, 0, M.rho, 0, M.cx, M.cy, 1};
-        double Np[9] = {1.0 / M.L, 0, 0, 0, 1.0 / M.L, 0,
-                        -M.X0 / M.L, -M.Y0 / M.L, 1};
+        double Np[9] = {1.0 / M.L, 0,           0,           0, 1.0 / M.L,
+                        0,         -M.X0 / M.L, -M.Y0 / M.L, 1};
         double H[9];
         mul3(Hn, Np, H);
         mul3(Ni, H, H);
@@ -1094,8 +1095,8 @@ int mb_calib_estimate(const mb_calib_problem *prob,
     }
     c.rms_px = sqrt(sum / M.nobs);
     memcpy(obs, prob->image_xy, sizeof *obs * m);
-    c.coverage = hull_area(obs, M.nobs, hull) /
-                 ((double)prob->width * prob->height);
+    c.coverage =
+        hull_area(obs, M.nobs, hull) / ((double)prob->width * prob->height);
     {
         char why[MB_ERR_LEN];
         if ((rc = mb_calib_validate(&c, why)) < 0) {

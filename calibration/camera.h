@@ -62,35 +62,35 @@
  * with mb_calib_validate before use.
  */
 typedef struct {
-    int width, height;  /**< px: frames this calibration applies to */
-    double h[9];        /**< plane (mm) -> undistorted image (px), 3x3,
-                             column-major (entry (r, c) is h[r + 3 c]),
-                             h[8] = 1 */
-    double cx, cy;      /**< distortion centre, px */
-    double radius;      /**< normalisation radius rho, px */
-    double k1, k2;      /**< radial distortion (dimensionless) */
-    double p1, p2;      /**< tangential distortion (dimensionless) */
+    int width, height; /**< px: frames this calibration applies to */
+    double h[9];       /**< plane (mm) -> undistorted image (px), 3x3,
+                            column-major (entry (r, c) is h[r + 3 c]),
+                            h[8] = 1 */
+    double cx, cy;     /**< distortion centre, px */
+    double radius;     /**< normalisation radius rho, px */
+    double k1, k2;     /**< radial distortion (dimensionless) */
+    double p1, p2;     /**< tangential distortion (dimensionless) */
 
     /* What it was made from (for the document and for a person). */
-    int rows, cols;     /**< target dots */
-    double pitch;       /**< target pitch, mm */
-    int n_frames;       /**< frames used, 1..MB_CALIB_MAX_FRAMES */
-    int n_points;       /**< dots per frame */
-    double rms_px;      /**< reprojection RMS over all dots, px:
-                             sqrt(sum |e|^2 / count), e the 2-D residual */
-    double worst_px;    /**< largest |e|, px */
-    int worst_frame;    /**< its frame (0-based) */
-    int worst_point;    /**< its dot, index row * cols + col (0-based) */
-    double coverage;    /**< fraction of the frame inside the convex hull of
-                             all dots seen: distortion outside it is
-                             extrapolated */
-    double frame_rms_px[MB_CALIB_MAX_FRAMES];   /**< RMS per frame, px */
-    double frame_angle_deg[MB_CALIB_MAX_FRAMES]; /**< target's turn on the
-                             plane relative to frame 0, degrees */
+    int rows, cols;  /**< target dots */
+    double pitch;    /**< target pitch, mm */
+    int n_frames;    /**< frames used, 1..MB_CALIB_MAX_FRAMES */
+    int n_points;    /**< dots per frame */
+    double rms_px;   /**< reprojection RMS over all dots, px:
+                          sqrt(sum |e|^2 / count), e the 2-D residual */
+    double worst_px; /**< largest |e|, px */
+    int worst_frame; /**< its frame (0-based) */
+    int worst_point; /**< its dot, index row * cols + col (0-based) */
+    double coverage; /**< fraction of the frame inside the convex hull of
+                          all dots seen: distortion outside it is
+                          extrapolated */
+    double frame_rms_px[MB_CALIB_MAX_FRAMES];      /**< RMS per frame, px */
+    double frame_angle_deg[MB_CALIB_MAX_FRAMES];   /**< target's turn on the
+                               plane relative to frame 0, degrees */
     double frame_shift_mm[MB_CALIB_MAX_FRAMES][2]; /**< and its shift, mm */
-    int iterations;     /**< Levenberg-Marquardt iterations, all passes */
-    char created[32];   /**< UTC date "YYYY-MM-DDTHH:MM:SSZ", set by the
-                             caller (the library reads no clock) */
+    int iterations;   /**< Levenberg-Marquardt iterations, all passes */
+    char created[32]; /**< UTC date "YYYY-MM-DDTHH:MM:SSZ", set by the
+                           caller (the library reads no clock) */
 } mb_calib;
 
 /** What mb_calib_estimate fits. */
@@ -138,9 +138,8 @@ void mb_calib_options_default(mb_calib_options *opt);
  * or could no longer reduce the error); MB_ERANGE (the fitted distortion
  * folds over inside the frame); MB_ENOMEM. err gets a sentence.
  */
-int mb_calib_estimate(const mb_calib_problem *prob,
-                      const mb_calib_options *opt, mb_calib *out,
-                      double *residuals, char *err);
+int mb_calib_estimate(const mb_calib_problem *prob, const mb_calib_options *opt,
+                      mb_calib *out, double *residuals, char *err);
 
 /**
  * Check a filled calibration: positive frame size, finite values, a
@@ -157,8 +156,7 @@ int mb_calib_validate(const mb_calib *cal, char *err);
  * Return value: 0; MB_EINVAL (NULL); MB_ESIZE, with a sentence naming
  * both sizes.
  */
-int mb_calib_check_frame(const mb_calib *cal, int width, int height,
-                         char *err);
+int mb_calib_check_frame(const mb_calib *cal, int width, int height, char *err);
 
 /** Apply the distortion: undistorted px -> observed px. */
 void mb_calib_distort(const mb_calib *cal, double xu, double yu, double *xd,

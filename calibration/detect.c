@@ -31,7 +31,11 @@
  *    contrast is (paper - centre) / (paper - dot), with centre the mean of
  *    7 samples within 0.05 cell, paper the median of 4 samples 0.3 cell
  *    away along the lattice axes, dot the mean grey at the 4 surrounding
- *    dots' centres. A cell is marked when the contrast exceeds 0.35.
+ *    dots' centres. The three marked corner cells set the level (their
+ *    mean contrast: blur lowers all marks alike); the unmarked corner must
+ *    stay under half of it and the weakest marked one above 0.15 and 2.5
+ *    times the unmarked one's; a code cell is marked above half the
+ *    level.
  * 5. Centres, see detect.h. The weight of a pixel is its darkness
  *    relative to the background, 1 - grey / background: under uneven
  *    light (grey = light x reflectance) that is the dot's coverage times a
@@ -54,7 +58,10 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define MARK_CONTRAST 0.35
+/* Marks: the weakest marked corner cell must reach this contrast, and
+   2.5 times the unmarked corner's (or this noise floor). */
+#define MARK_MIN_CONTRAST 0.15
+#define MARK_NOISE 0.03
 /* Centroid window beyond the dot's edge, px (see refine_centre). */
 #define WINDOW_MARGIN_PX 4.0
 #define MAX_SEEDS_TRIED 40
@@ -109,10 +116,10 @@ const char *mb_detect_fault_name(mb_detect_fault f)
 /* ---- blobs ---- */
 
 typedef struct {
-    double area, cx, cy;    /* px, binary centroid */
-    double sxx, syy, sxy;   /* central second moments (variances), px^2 */
-    int touches;            /* touches the frame border */
-    int cand;               /* dot-shaped candidate */
+    double area, cx, cy;  /* px, binary centroid */
+    double sxx, syy, sxy; /* central second moments (variances), px^2 */
+    int touches;          /* touches the frame border */
+    int cand;             /* dot-shaped candidate */
 } blob;
 
 typedef struct {
@@ -120,21 +127,21 @@ typedef struct {
     const mb_target *t;
     mb_detect_config cfg;
     mb_detect_info *info;
-    int *labels;            /* per pixel: blob index + 1, 0 = bright */
+    int *labels; /* per pixel: blob index + 1, 0 = bright */
     blob *blobs;
     int n_blobs;
-    int *cand;              /* candidate -> blob index */
+    int *cand; /* candidate -> blob index */
     int n_cand;
     /* bucket grid of candidates for neighbour queries */
     int gcell, gw, gh;
     int *gstart, *gnext;
     /* lattice */
-    int *lat;               /* LAT_SIDE^2: candidate index + 1 at (i, j) */
-    int *lat_of;            /* candidate -> packed lattice position or -1 */
-    double *la;             /* candidate -> local vectors ax, ay, bx, by */
+    int *lat;    /* LAT_SIDE^2: candidate index + 1 at (i, j) */
+    int *lat_of; /* candidate -> packed lattice position or -1 */
+    double *la;  /* candidate -> local vectors ax, ay, bx, by */
     int *queue;
-    int *best;              /* best lattice: packed positions of its dots */
-    int *best_cand;         /* and their candidates */
+    int *best;      /* best lattice: packed positions of its dots */
+    int *best_cand; /* and their candidates */
     int n_best;
 } det_ctx;
 
@@ -322,7 +329,8 @@ static int nearest_cand(const det_ctx *D, double x, double y, double radius,
                 if (ratio > 0.0 &&
                     (B->area > ratio * area || B->area * ratio < area))
                     continue;
-                double d = (B->cx - x) * (B->cx - x) + (B->cy - y) * (B->cy - y);
+                double d =
+                    (B->cx - x) * (B->cx - x) + (B->cy - y) * (B->cy - y);
                 if (d <= bd) {
                     bd = d;
                     best = c;
@@ -576,8 +584,7 @@ static void gp(const grid_pts *g, int s, int t, double *x, double *y)
 }
 
 /* Mark contrast of cell (s, t) (between lattice points s..s+1, t..t+1). */
-static double cell_contrast(const mb_image *im, const grid_pts *g, int s,
-                            int t)
+static double cell_contrast(const mb_image *im, const grid_pts *g, int s, int t)
 {
     double x00, y00, x10, y10, x01, y01, x11, y11;
     gp(g, s, t, &x00, &y00);
@@ -789,8 +796,7 @@ int mb_target_detect(const mb_image *img, const mb_target *t,
     if (!info)
         info = &local;
     memset(info, 0, sizeof *info);
-    if (!img || !img->pixels || img->width < 8 || img->height < 8 || !t ||
-        !xy)
+    if (!img || !img->pixels || img->width < 8 || img->height < 8 || !t || !xy)
         return mb_err_set(err, MB_EINVAL,
                           "target detection: no frame, target or output");
     if (t->rows < MB_TARGET_MIN_SIDE || t->cols < MB_TARGET_MIN_SIDE ||
@@ -1031,7 +1037,8 @@ static int detect_lattice(det_ctx *D, double *xy, char *err)
                     side_min, D->cfg.min_pitch_px);
         goto out;
     }
-    if (aniso > D->cfg.max_anisotropy || sc_max > D->cfg.max_pitch_ratio * sc_min) {
+    if (aniso > D->cfg.max_anisotropy ||
+        sc_max > D->cfg.max_pitch_ratio * sc_min) {
         free(have);
         rc = refuse(D, MB_DETECT_TOO_OBLIQUE, err,
                     "the calibration target is seen too obliquely: grid cells "
@@ -1130,8 +1137,9 @@ static int detect_lattice(det_ctx *D, double *xy, char *err)
                     "the calibration target is only partly in view: %d x %d "
                     "dots found and the grid goes on %s; the whole target "
                     "(%d x %d) must be in the frame",
-                    n2, n1, goes_on ? "with dots that could not be joined"
-                                    : "beyond the frame edge",
+                    n2, n1,
+                    goes_on ? "with dots that could not be joined"
+                            : "beyond the frame edge",
                     R, C);
         goto out;
     }
@@ -1156,17 +1164,28 @@ static int detect_lattice(det_ctx *D, double *xy, char *err)
         if (cc[k] < cc[low])
             low = k;
     }
-    int marked = 0;
+    /* Blur lowers every mark's contrast alike: the three marked corners
+       set the level, the unmarked one must stay well below it, and the
+       code cells are judged at half that level. */
+    double weakest = INFINITY, level = 0.0;
     for (int k = 0; k < 4; k++)
-        if (k != low && cc[k] > MARK_CONTRAST)
-            marked++;
-    if (marked != 3 || cc[low] > MARK_CONTRAST) {
+        if (k != low) {
+            weakest = fmin(weakest, cc[k]);
+            level += cc[k] / 3.0;
+        }
+    if (weakest < MARK_MIN_CONTRAST ||
+        weakest < 2.5 * fmax(cc[low], MARK_NOISE) || cc[low] > 0.5 * level) {
         rc = refuse(D, MB_DETECT_ORIENTATION, err,
                     "the grid's corner marks were not found (three of the "
-                    "four corner cells must carry a mark): is this a modeband "
-                    "target (modeband target), printed in full?");
+                    "four corner cells must carry a mark; contrasts %.2f %.2f "
+                    "%.2f %.2f): is this a modeband target (modeband target), "
+                    "printed in full? At %.1f px between dots the marks may "
+                    "also be too blurred to see: focus, or bring the camera "
+                    "closer",
+                    cc[0], cc[1], cc[2], cc[3], side_min);
         goto out;
     }
+    const double mark_threshold = 0.5 * level;
     int syms[8], n_syms = 0;
     for (int sym = 0; sym < 8; sym++) {
         int c, r;
@@ -1222,7 +1241,7 @@ static int detect_lattice(det_ctx *D, double *xy, char *err)
                 int bit = mb_target_cell_bit(t, r, c);
                 if (bit < 0)
                     continue;
-                if (cell_contrast(im, &g, s, tt) > MARK_CONTRAST)
+                if (cell_contrast(im, &g, s, tt) > mark_threshold)
                     word |= 1 << bit;
             }
         tried_codes++;
@@ -1245,12 +1264,12 @@ static int detect_lattice(det_ctx *D, double *xy, char *err)
     info->found_rows = R;
     info->found_cols = C;
     if (fabs(t->pitch / info->coded_pitch - 1.0) > D->cfg.max_pitch_error) {
-        rc = refuse(D, MB_DETECT_PITCH, err,
-                    "the target in view was printed with a %.1f mm pitch, "
-                    "but --pitch %g was given (more than %.0f %% apart): "
-                    "give the printed or measured pitch",
-                    info->coded_pitch, t->pitch,
-                    100.0 * D->cfg.max_pitch_error);
+        rc =
+            refuse(D, MB_DETECT_PITCH, err,
+                   "the target in view was printed with a %.1f mm pitch, "
+                   "but --pitch %g was given (more than %.0f %% apart): "
+                   "give the printed or measured pitch",
+                   info->coded_pitch, t->pitch, 100.0 * D->cfg.max_pitch_error);
         goto out;
     }
 
@@ -1275,16 +1294,16 @@ static int detect_lattice(det_ctx *D, double *xy, char *err)
                 /* Local lattice vectors from the binary centroids. */
                 int cl = c > 0 ? c - 1 : c, ch = c + 1 < C ? c + 1 : c;
                 int rl = r > 0 ? r - 1 : r, rh = r + 1 < R ? r + 1 : r;
-                double a[2] = {(ring[2 * (r * C + ch)] - ring[2 * (r * C + cl)]) /
-                                   (ch - cl),
-                               (ring[2 * (r * C + ch) + 1] -
-                                ring[2 * (r * C + cl) + 1]) /
-                                   (ch - cl)};
-                double b[2] = {(ring[2 * (rh * C + c)] - ring[2 * (rl * C + c)]) /
-                                   (rh - rl),
-                               (ring[2 * (rh * C + c) + 1] -
-                                ring[2 * (rl * C + c) + 1]) /
-                                   (rh - rl)};
+                double a[2] = {
+                    (ring[2 * (r * C + ch)] - ring[2 * (r * C + cl)]) /
+                        (ch - cl),
+                    (ring[2 * (r * C + ch) + 1] - ring[2 * (r * C + cl) + 1]) /
+                        (ch - cl)};
+                double b[2] = {
+                    (ring[2 * (rh * C + c)] - ring[2 * (rl * C + c)]) /
+                        (rh - rl),
+                    (ring[2 * (rh * C + c) + 1] - ring[2 * (rl * C + c) + 1]) /
+                        (rh - rl)};
                 double *p = xy + 2 * (r * C + c);
                 if (refine_centre(im, a, b, &p[0], &p[1]) < 0) {
                     rc = refuse(D, MB_DETECT_PARTIAL, err,

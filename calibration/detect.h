@@ -51,7 +51,7 @@ typedef enum {
     MB_DETECT_PARTIAL,     /**< cut by the frame edge or covered (MB_EEDGE) */
     MB_DETECT_GRID_SIZE,   /**< complete, but not rows x cols (MB_ESIZE) */
     MB_DETECT_ORIENTATION, /**< marks or code unreadable (MB_EFORMAT) */
-    MB_DETECT_PITCH        /**< printed pitch is not the one given (MB_EINVAL) */
+    MB_DETECT_PITCH /**< printed pitch is not the one given (MB_EINVAL) */
 } mb_detect_fault;
 
 /** Settings; mb_detect_config_default fills them. */
@@ -76,17 +76,17 @@ typedef struct {
 /** What a detection found (also filled, as far as it got, on a refusal). */
 typedef struct {
     mb_detect_fault fault;
-    int threshold;          /**< Otsu's threshold used */
-    int blobs;              /**< dark blobs found */
-    int candidates;         /**< of them, dot-shaped */
+    int threshold;              /**< Otsu's threshold used */
+    int blobs;                  /**< dark blobs found */
+    int candidates;             /**< of them, dot-shaped */
     int found_rows, found_cols; /**< lattice size in target orientation (or
                                      as found, before orientation) */
     double pitch_px_min, pitch_px_max; /**< local pitch across the target */
-    double anisotropy;      /**< largest cell side ratio */
-    double coded_pitch;     /**< mm, from the marks; 0 when not read */
-    double h[9];            /**< target mm -> image px homography fitted to
-                                 the centres (no distortion), column-major */
-    int mirrored;           /**< 1 when the frame shows the sheet mirrored */
+    double anisotropy;                 /**< largest cell side ratio */
+    double coded_pitch; /**< mm, from the marks; 0 when not read */
+    double h[9];        /**< target mm -> image px homography fitted to
+                             the centres (no distortion), column-major */
+    int mirrored;       /**< 1 when the frame shows the sheet mirrored */
 } mb_detect_info;
 
 void mb_detect_config_default(mb_detect_config *cfg);

@@ -459,11 +459,12 @@ static double select_kth(double *v, int n, int kth)
 #define SIDE 0.75
 
 /* The edge is first looked for within +-NEAR_RANGE px (where nearly every
-   edge of a good part is), then, only when none is there, within the whole
-   refine_range: the same answer as one search of the whole range (the
-   edge nearest the model point wins either way, and everything read around
-   it lies inside the short window too), at two thirds of the samples. */
-#define NEAR_RANGE 3
+   edge of a good part is after the fit), then, only when none is there,
+   within the whole refine_range: the same answer as one search of the
+   whole range (the edge nearest the model point wins either way, and
+   everything read around it lies inside the short window too), from 15
+   samples per line instead of 29 (refine_range 8). */
+#define NEAR_RANGE 1
 
 /*
  * Sub-pixel edge along one normal at full resolution, from the mean of the

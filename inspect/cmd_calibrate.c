@@ -162,9 +162,9 @@ int mb_cmd_calibrate(int argc, char **argv)
                info.coded_pitch, info.mirrored ? " (image mirrored)" : "");
     }
 
-    mb_calib_problem prob = {width,         height, n,    N,     tgt_xy,
-                             img_xy,        0.5 * t.dot_diameter,
-                             rows,          cols,   t.pitch};
+    mb_calib_problem prob = {
+        width, height, n,      N, tgt_xy, img_xy, 0.5 * t.dot_diameter,
+        rows,  cols,   t.pitch};
     mb_calib_options opt;
     mb_calib_options_default(&opt);
     opt.radial_terms = radial;

@@ -32,9 +32,9 @@
 
 /** Acceptance band of a %GRR. */
 typedef enum {
-    MB_GRR_ACCEPTABLE = 0,  /**< %GRR < 10 */
-    MB_GRR_CONDITIONAL,     /**< 10 <= %GRR <= 30 */
-    MB_GRR_NOT_ACCEPTABLE   /**< %GRR > 30 */
+    MB_GRR_ACCEPTABLE = 0, /**< %GRR < 10 */
+    MB_GRR_CONDITIONAL,    /**< 10 <= %GRR <= 30 */
+    MB_GRR_NOT_ACCEPTABLE  /**< %GRR > 30 */
 } mb_grr_band;
 
 typedef struct {

@@ -7,7 +7,6 @@
 #include "error.h"
 #include "image.h"
 #include "image_file.h"
-#include "json_util.h"
 #include "svg.h"
 
 #include <errno.h>
@@ -328,11 +327,15 @@ static void csv_str(FILE *f, const char *s)
     fputc('"', f);
 }
 
+/* A number that reads back exactly: the log's own 9 digits when they do
+   (the usual case, one conversion), else 17. */
 static void csv_num(FILE *f, double v)
 {
     if (isfinite(v)) {
-        char b[MB_JSON_NUMBER_LEN];
-        mb_json_format_double(v, b);
+        char b[40];
+        snprintf(b, sizeof b, "%.9g", v);
+        if (strtod(b, NULL) != v)
+            snprintf(b, sizeof b, "%.17g", v);
         fputs(b, f);
     }
 }

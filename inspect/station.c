@@ -17,6 +17,7 @@
 #include "model_file.h"
 #include "overlay.h"
 #include "plc.h"
+#include "rejects.h"
 #include "replay_source.h"
 #include "shiftlog.h"
 #include "source.h"
@@ -101,6 +102,7 @@ struct mb_station {
     int64_t cam_retry_ms, cam_lost_ms;
     mb_plc *plc;
     mb_shiftlog *log;
+    mb_rejects *rejects;
     struct sigaction old_term, old_int, old_hup;
     int handlers_set;
     uint64_t max_parts;
@@ -334,26 +336,13 @@ static void push_counters(mb_station *st)
     mb_plc_set_status(st->plc, MB_PLC_ST_LOGGING, mb_shiftlog_problem(st->log));
 }
 
-/* Reject image: <reject folder>/<date>/<station>_<seq>.png, under the cap. */
+/* Reject image with the overlay, under the disk cap (io/rejects.h). */
 static int save_reject(mb_station *st, const mb_image *img, const mb_verdict *v,
                        char *path, size_t len)
 {
-    const mb_station_config *cfg = &st->cfg;
-    if (!cfg->reject_folder[0])
-        return -1;
-    time_t now = time(NULL);
-    struct tm tmv;
-    localtime_r(&now, &tmv);
-    char day[16];
-    strftime(day, sizeof day, "%Y-%m-%d", &tmv);
-    char dir[MB_STATION_PATH_LEN + 32];
-    if (strlen(cfg->reject_folder) > 480)
-        return -1;
-    snprintf(dir, sizeof dir, "%s/%s", cfg->reject_folder, day);
-    mkdir(cfg->reject_folder, 0775);
-    if (mkdir(dir, 0775) != 0 && errno != EEXIST)
-        return -1;
-    if (snprintf(path, len, "%.500s/%.60s_%06u.png", dir, cfg->station, st->seq) >= (int)len)
+    char err[MB_ERR_LEN];
+    if (!st->rejects ||
+        mb_rejects_path(st->rejects, mb_shiftlog_now_ms(), st->seq, path, len, err) < 0)
         return -1;
     mb_overlay_mark marks[MB_MAX_REASONS];
     int nm = 0;
@@ -369,11 +358,12 @@ static int save_reject(mb_station *st, const mb_image *img, const mb_verdict *v,
     }
     mb_overlay ov = {img, v->measured ? v->layout : NULL, v->model_xy,
                      v->measured, v->valid, (int)v->verdict, marks, nm};
-    char err[MB_ERR_LEN];
     if (mb_overlay_save(path, &ov, err) < 0) {
         say(4, "reject image not saved: %s", err);
         return -1;
     }
+    if (mb_rejects_added(st->rejects, path, err) < 0)
+        say(4, "reject images: %s", err);
     return 0;
 }
 
@@ -710,6 +700,13 @@ int mb_station_open(const char *config_path, uint64_t max_parts,
     lc.model_checksum = st->slots[st->active].checksum;
     if ((rc = mb_shiftlog_open(&lc, mb_shiftlog_now_ms(), &st->log, err)) < 0)
         goto fail;
+    if (mb_shiftlog_problem(st->log))
+        say(3, "shift log: %s (inspection goes on; the logging-problem bit is set)", err);
+    if (st->cfg.reject_folder[0]) {
+        char rerr[MB_ERR_LEN];
+        if (mb_rejects_open(st->cfg.reject_folder, st->cfg.reject_cap_mb, &st->rejects, rerr) < 0)
+            say(4, "reject images will not be saved: %s", rerr);
+    }
 
     if (st->cfg.plc.mode != MB_STATION_PLC_NONE) {
         mb_plc_config pc;
@@ -915,6 +912,7 @@ void mb_station_close(mb_station *st)
     mb_source_close(st->src);
     mb_plc_close(st->plc);
     mb_shiftlog_close(st->log);
+    mb_rejects_close(st->rejects);
     slots_free(st->slots, st->n_slots);
     free(st);
 }

@@ -140,8 +140,8 @@ int mb_calib_file_print(const mb_calib *cal, char **text, size_t *len,
         add(re, "worst_point", cJSON_CreateNumber(cal->worst_point), &ok);
         add(re, "coverage", mb_json_raw_number(cal->coverage), &ok);
         add(re, "iterations", cJSON_CreateNumber(cal->iterations), &ok);
-        add(re, "frame_rms_px", raw_array(cal->frame_rms_px, cal->n_frames, &ok),
-            &ok);
+        add(re, "frame_rms_px",
+            raw_array(cal->frame_rms_px, cal->n_frames, &ok), &ok);
     }
     cJSON *po = cJSON_CreateArray();
     add(root, "poses", po, &ok);
@@ -203,8 +203,8 @@ static int read_model(const cJSON *root, const char *name, mb_calib *c,
     int rc;
     if ((rc = mb_json_member(root, name, "", "model", MB_JSON_OBJECT, &mo,
                              err)) < 0 ||
-        (rc = mb_json_member(mo, name, "model", "plane_to_image",
-                             MB_JSON_ARRAY, &rows, err)) < 0)
+        (rc = mb_json_member(mo, name, "model", "plane_to_image", MB_JSON_ARRAY,
+                             &rows, err)) < 0)
         return rc;
     if (cJSON_GetArraySize(rows) != 3)
         return mb_err_set(err, MB_ESIZE,
@@ -260,8 +260,8 @@ static int read_residuals(const cJSON *root, const char *name, mb_calib *c,
     int rc;
     if ((rc = mb_json_member(root, name, "", "residuals", MB_JSON_OBJECT, &re,
                              err)) < 0 ||
-        (rc = mb_json_member_int(re, name, at, "frames", 1,
-                                 MB_CALIB_MAX_FRAMES, &c->n_frames, err)) < 0 ||
+        (rc = mb_json_member_int(re, name, at, "frames", 1, MB_CALIB_MAX_FRAMES,
+                                 &c->n_frames, err)) < 0 ||
         (rc = mb_json_member_int(re, name, at, "points_per_frame", 8,
                                  MB_CALIB_MAX_OBS, &c->n_points, err)) < 0 ||
         (rc = read_number(re, name, at, "rms_px", &c->rms_px, err)) < 0 ||
@@ -332,8 +332,7 @@ static int parse_root(const cJSON *root, const char *name, mb_calib *c,
         return mb_err_set(err, MB_EFORMAT,
                           "%s: created: expected at most %zu characters, "
                           "found %zu",
-                          name, sizeof c->created - 1,
-                          strlen(cr->valuestring));
+                          name, sizeof c->created - 1, strlen(cr->valuestring));
     strcpy(c->created, cr->valuestring);
     if ((rc = mb_json_member(root, name, "", "frame", MB_JSON_OBJECT, &fr,
                              err)) < 0 ||

@@ -60,7 +60,7 @@ int mb_calib_file_print(const mb_calib *cal, char **text, size_t *len,
 int mb_calib_file_save(const char *path, const mb_calib *cal, char *err);
 
 /** Read a document from a buffer; `name` is used in sentences. On failure
-    *cal is zeroed. Codes: see the file comment; MB_ENOMEM. */
+ *cal is zeroed. Codes: see the file comment; MB_ENOMEM. */
 int mb_calib_file_parse(const char *text, size_t len, const char *name,
                         mb_calib *cal, char *err);
 

@@ -16,7 +16,8 @@
  *   - spring forward (a local hour does not exist): a shift starting at a
  *     time that does not exist that day starts at the first existing minute
  *     after it, the instant of the jump (Europe/Berlin, last Sunday of
- *     March: a 02:30 start is 03:00 CEST); that shift is an hour shorter;
+ *     March: a 02:30 start is 03:00 CEST); the shift spanning the jump is
+ *     up to an hour shorter;
  *   - fall back (a local hour occurs twice): a shift starting in the
  *     repeated hour starts at its first occurrence (summer time); the shift
  *     that spans the jump is an hour longer.

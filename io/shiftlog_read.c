@@ -41,26 +41,51 @@ typedef enum {
     F_I64,     /* int64_t */
     F_BOOL,    /* int 1/0 */
     F_VERDICT, /* mb_slog_verdict from a string */
-    F_KIND     /* kind_name, and kind from it */
+    F_KIND,    /* kind_name, and kind from it */
+    /* handled by the parsers themselves: */
+    F_FORMAT, F_VERSION, F_REASONS, F_GAUGES, F_MODES, F_POSE
 } field_type;
 
 typedef struct {
     const char *key;
+    size_t len; /* strlen(key) */
     field_type type;
     size_t offset, size;
 } field;
 
 #define R(member, t)                                                           \
-    {#member, t, offsetof(mb_slog_record, member),                             \
+    {#member, sizeof(#member) - 1, t, offsetof(mb_slog_record, member),        \
      sizeof(((mb_slog_record *)0)->member)}
 #define RK(key, member, t)                                                     \
-    {key, t, offsetof(mb_slog_record, member),                                 \
+    {key, sizeof(key) - 1, t, offsetof(mb_slog_record, member),                \
      sizeof(((mb_slog_record *)0)->member)}
+#define RX(key, t) {key, sizeof(key) - 1, t, 0, 0}
 
-/* "version", "pose", "modes", "reasons", "gauges" are handled apart. */
+/* In the order the format lists the members (the writer's order), so the
+   scanner's cyclic search (see lookup below) finds each key at its first
+   try on a line the writer wrote. */
 static const field top_fields[] = {
+    RX("format", F_FORMAT),
+    RX("version", F_VERSION),
     RK("kind", kind_name, F_KIND),
     R(time, F_STR),
+    R(seq, F_U32),
+    R(frame_seq, F_I64),
+    R(slot, F_INT),
+    R(part, F_STR),
+    R(model_checksum, F_STR),
+    R(verdict, F_VERDICT),
+    R(reason, F_STR),
+    R(code, F_INT),
+    RX("reasons", F_REASONS),
+    RX("pose", F_POSE),
+    RX("modes", F_MODES),
+    R(t2, F_NUM),
+    R(residual, F_NUM),
+    R(size_mm, F_NUM),
+    RX("gauges", F_GAUGES),
+    R(cycle_ms, F_NUM),
+    R(image, F_STR),
     R(shift, F_STR),
     R(date, F_STR),
     R(station, F_STR),
@@ -71,19 +96,6 @@ static const field top_fields[] = {
     R(faults, F_LONG),
     R(drift_signals, F_LONG),
     R(yield, F_NUM),
-    R(seq, F_U32),
-    R(frame_seq, F_I64),
-    R(slot, F_INT),
-    R(part, F_STR),
-    R(model_checksum, F_STR),
-    R(verdict, F_VERDICT),
-    R(reason, F_STR),
-    R(code, F_INT),
-    R(t2, F_NUM),
-    R(residual, F_NUM),
-    R(size_mm, F_NUM),
-    R(cycle_ms, F_NUM),
-    R(image, F_STR),
     R(chart, F_STR),
     R(state, F_STR),
     R(direction, F_STR),
@@ -103,7 +115,7 @@ static const field top_fields[] = {
 #define N_TOP (sizeof top_fields / sizeof top_fields[0])
 
 #define RR(member, t)                                                          \
-    {#member, t, offsetof(mb_slog_reason, member),                             \
+    {#member, sizeof(#member) - 1, t, offsetof(mb_slog_reason, member),        \
      sizeof(((mb_slog_reason *)0)->member)}
 static const field reason_fields[] = {
     RR(code, F_INT),          RR(name, F_STR),       RR(text, F_STR),
@@ -112,7 +124,7 @@ static const field reason_fields[] = {
     RR(extent_mm, F_NUM),
 };
 #define RG(member, t)                                                          \
-    {#member, t, offsetof(mb_slog_gauge, member),                              \
+    {#member, sizeof(#member) - 1, t, offsetof(mb_slog_gauge, member),         \
      sizeof(((mb_slog_gauge *)0)->member)}
 static const field gauge_fields[] = {
     RG(name, F_STR),       RG(value_mm, F_NUM),  RG(nominal_mm, F_NUM),
@@ -126,6 +138,33 @@ static const field *find_field(const field *t, size_t n, const char *key)
     for (size_t i = 0; i < n; i++)
         if (t[i].key[0] == key[0] && !strcmp(t[i].key, key))
             return &t[i];
+    return NULL;
+}
+
+/* The scanner's key search: cyclic from just after the last match, so a
+   line whose members come in table order costs one comparison per key. */
+typedef struct {
+    const field *tab;
+    size_t n, next;
+} lookup;
+
+static const field *lookup_key(lookup *lk, const char *key, size_t len)
+{
+    size_t i = lk->next;
+    for (size_t k = 0; k < lk->n; k++) {
+        const field *f = &lk->tab[i];
+        if (++i == lk->n)
+            i = 0;
+        if (f->len != len || f->key[0] != key[0])
+            continue;
+        size_t j = 1; /* keys are short: compare inline, not through memcmp */
+        while (j < len && f->key[j] == key[j])
+            j++;
+        if (j == len) {
+            lk->next = i;
+            return f;
+        }
+    }
     return NULL;
 }
 
@@ -266,6 +305,8 @@ static void set_field(void *base, const field *f, vtype t, double num,
     case F_BOOL:
         if (t == V_BOOL)
             *(int *)(void *)p = num != 0;
+        break;
+    default:
         break;
     }
 }
@@ -715,17 +756,11 @@ static int skip_value(scan *s, int depth)
     return read_value(s, depth, &t, &num, &len);
 }
 
-/* Read a key and the colon after it into key[cap] (longer keys give ""
-   which matches nothing). */
-static int read_key(scan *s, char *key, size_t cap)
+/* Read a key (decoded into s->sbuf, *len bytes) and the colon after it. */
+static int read_key(scan *s, size_t *len)
 {
-    size_t len;
-    if (s->p >= s->end || *s->p != '"' || read_string(s, &len))
+    if (s->p >= s->end || *s->p != '"' || read_string(s, len))
         return -1;
-    if (len < cap)
-        memcpy(key, s->sbuf, len + 1);
-    else
-        key[0] = '\0';
     ws(s);
     if (s->p >= s->end || *s->p != ':')
         return -1;
@@ -761,14 +796,16 @@ static int scan_object(scan *s, void *base, const field *tab, size_t n)
         s->p++;
         return 0;
     }
+    lookup lk = {tab, n, 0};
     for (;;) {
-        char key[32];
         vtype t;
         double num;
         size_t len;
-        if (read_key(s, key, sizeof key) || read_value(s, 2, &t, &num, &len))
+        if (read_key(s, &len))
             return -1;
-        const field *f = find_field(tab, n, key);
+        const field *f = len ? lookup_key(&lk, s->sbuf, len) : NULL;
+        if (read_value(s, 2, &t, &num, &len))
+            return -1;
         if (f)
             set_field(base, f, t, num, s->sbuf, len);
         int r = next_member(s, '}');
@@ -865,15 +902,17 @@ static int parse_scan(const char *line, size_t len, mb_slog_record *r,
     if (s.p < s.end && *s.p == '}') {
         s.p++;
     } else {
+        lookup lk = {top_fields, N_TOP, 0};
         for (;;) {
-            char key[32];
-            if (read_key(&s, key, sizeof key))
+            size_t klen;
+            if (read_key(&s, &klen))
                 goto bad;
-            if (!strcmp(key, "reasons") || !strcmp(key, "gauges") ||
-                !strcmp(key, "modes")) {
-                if (scan_array(&s, r, key[0] == 'r' ? 0 : key[0] == 'g' ? 1 : 2))
+            const field *f = klen ? lookup_key(&lk, sbuf, klen) : NULL;
+            field_type ft = f ? f->type : F_STR;
+            if (ft == F_REASONS || ft == F_GAUGES || ft == F_MODES) {
+                if (scan_array(&s, r, ft == F_REASONS ? 0 : ft == F_GAUGES ? 1 : 2))
                     goto bad;
-            } else if (!strcmp(key, "pose")) {
+            } else if (ft == F_POSE) {
                 if (scan_pose(&s, r))
                     goto bad;
             } else {
@@ -882,16 +921,17 @@ static int parse_scan(const char *line, size_t len, mb_slog_record *r,
                 size_t slen;
                 if (read_value(&s, 1, &t, &num, &slen))
                     goto bad;
-                if (!strcmp(key, "format")) {
+                if (!f) {
+                    /* a member this reader does not know */
+                } else if (ft == F_FORMAT) {
                     have_format = 1;
-                    format_ok = t == V_STR && !strcmp(sbuf, MB_SHIFTLOG_FORMAT);
-                } else if (!strcmp(key, "version")) {
+                    format_ok = t == V_STR && slen == sizeof MB_SHIFTLOG_FORMAT - 1 &&
+                                !memcmp(sbuf, MB_SHIFTLOG_FORMAT, slen);
+                } else if (ft == F_VERSION) {
                     have_version = t == V_NUM;
                     version = num;
                 } else {
-                    const field *f = find_field(top_fields, N_TOP, key);
-                    if (f)
-                        set_field(r, f, t, num, sbuf, slen);
+                    set_field(r, f, t, num, sbuf, slen);
                 }
             }
             int k = next_member(&s, '}');

@@ -40,7 +40,8 @@ static const double test_pts[5][2] = {
 static void pose(rt_scene *sc, const mb_target *t, double a, double dx,
                  double dy)
 {
-    double mx = 0.5 * (t->cols - 1) * t->pitch, my = 0.5 * (t->rows - 1) * t->pitch;
+    double mx = 0.5 * (t->cols - 1) * t->pitch,
+           my = 0.5 * (t->rows - 1) * t->pitch;
     double r = a * M_PI / 180.0;
     sc->angle_deg = a;
     sc->shift_mm[0] = mx + dx - (cos(r) * mx - sin(r) * my);
@@ -112,8 +113,8 @@ static int render_set(const char *dir, const char *name, rt_scene sc,
             cJSON *fc = cJSON_CreateArray(), *ft = cJSON_CreateArray();
             for (int q = 0; q < N; q++) {
                 double x, y;
-                cJSON_AddItemToArray(fc, pair(xy[2 * (N * f + q)],
-                                              xy[2 * (N * f + q) + 1]));
+                cJSON_AddItemToArray(
+                    fc, pair(xy[2 * (N * f + q)], xy[2 * (N * f + q) + 1]));
                 rt_dot_centroid(&sc, t, q / t->cols, q % t->cols, &x, &y);
                 cJSON_AddItemToArray(ft, pair(x, y));
             }
@@ -124,8 +125,9 @@ static int render_set(const char *dir, const char *name, rt_scene sc,
     }
     if (!fit)
         return 0;
-    mb_calib_problem P = {sc.width, sc.height, NF, N, tq, xy,
-                          0.5 * t->dot_diameter, t->rows, t->cols, t->pitch};
+    mb_calib_problem P = {
+        sc.width, sc.height, NF,      N, tq, xy, 0.5 * t->dot_diameter,
+        t->rows,  t->cols,   t->pitch};
     mb_calib c;
     if (mb_calib_estimate(&P, NULL, &c, NULL, err) < 0) {
         fprintf(stderr, "%s: %s\n", name, err);
@@ -191,9 +193,8 @@ int main(int argc, char **argv)
     for (int i = 0; i < 5; i++) {
         double X, Y;
         cJSON_AddItemToArray(tp, pair(test_pts[i][0], test_pts[i][1]));
-        cJSON_AddItemToArray(
-            ts, cJSON_CreateNumber(rt_mm_per_px(&sc, &t, test_pts[i][0],
-                                                test_pts[i][1])));
+        cJSON_AddItemToArray(ts, cJSON_CreateNumber(rt_mm_per_px(
+                                     &sc, &t, test_pts[i][0], test_pts[i][1])));
         rt_plane_of_px(&sc, &t, test_pts[i][0], test_pts[i][1], &X, &Y);
         cJSON_AddItemToArray(tpl, pair(X, Y));
     }
@@ -224,8 +225,8 @@ int main(int argc, char **argv)
         FILE *cf = fopen(path, "w");
         if (!cf)
             return 1;
-        fprintf(cf, "%.9f\n", rt_mm_per_px(&sc, &t, test_pts[0][0],
-                                           test_pts[0][1]));
+        fprintf(cf, "%.9f\n",
+                rt_mm_per_px(&sc, &t, test_pts[0][0], test_pts[0][1]));
         if (fclose(cf) != 0)
             return 1;
         rt_scene small = sc;

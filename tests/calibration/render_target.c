@@ -54,8 +54,8 @@ void rt_homography(const rt_scene *sc, const mb_target *t, double h[9])
     for (int r = 0; r < 3; r++) {
         M(B, r, 0) = M(R, r, 0);
         M(B, r, 1) = M(R, r, 1);
-        M(B, r, 2) = (r == 2 ? sc->height_mm : 0.0) - xm * M(R, r, 0) -
-                     ym * M(R, r, 1);
+        M(B, r, 2) =
+            (r == 2 ? sc->height_mm : 0.0) - xm * M(R, r, 0) - ym * M(R, r, 1);
     }
     double cx = 0.5 * (sc->width - 1), cy = 0.5 * (sc->height - 1);
     double K[9] = {sc->f, 0, 0, 0, sc->f, 0, cx, cy, 1};
@@ -139,7 +139,8 @@ static int inverse3(const double h[9], double g[9])
     double a = M(h, 0, 0), b = M(h, 0, 1), c = M(h, 0, 2);
     double d = M(h, 1, 0), e = M(h, 1, 1), f = M(h, 1, 2);
     double p = M(h, 2, 0), q = M(h, 2, 1), r = M(h, 2, 2);
-    double det = a * (e * r - f * q) - b * (d * r - f * p) + c * (d * q - e * p);
+    double det =
+        a * (e * r - f * q) - b * (d * r - f * p) + c * (d * q - e * p);
     if (fabs(det) < 1e-300)
         return -1;
     M(g, 0, 0) = (e * r - f * q) / det;
@@ -191,8 +192,8 @@ static int inv_apply_from(const rt_scene *sc, const inv_map *m, double x,
                           double *Y, double *qx, double *qy)
 {
     double u = *pu, v = *pv;
-    if (undistort_n(sc->k, (x - m->cx) / m->rho, (y - m->cy) / m->rho, &u,
-                    &v) < 0)
+    if (undistort_n(sc->k, (x - m->cx) / m->rho, (y - m->cy) / m->rho, &u, &v) <
+        0)
         return -1;
     *pu = u;
     *pv = v;
@@ -338,7 +339,8 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
                 inv_apply(sc, &m, x + 1, y, &X1, &Y1, &qx, &qy) < 0 ||
                 inv_apply(sc, &m, x, y + 1, &X2, &Y2, &qx, &qy) < 0)
                 continue;
-            smax = fmax(smax, hypot(hypot(X1 - X, Y1 - Y), hypot(X2 - X, Y2 - Y)));
+            smax =
+                fmax(smax, hypot(hypot(X1 - X, Y1 - Y), hypot(X2 - X, Y2 - Y)));
         }
     smax *= 1.1; /* margin for the variation between the samples */
     const int ss = sc->supersample > 0 ? sc->supersample : 1;
@@ -364,10 +366,10 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
                     double X1, Y1, X2, Y2, q1x, q1y, q2x, q2y;
                     double u1 = pu + 0.5 / m.rho, v1 = pv;
                     double u2 = pu, v2 = pv + 0.5 / m.rho;
-                    inv_apply_from(sc, &m, x + 0.5, y, &u1, &v1, &X1, &Y1,
-                                   &q1x, &q1y);
-                    inv_apply_from(sc, &m, x, y + 0.5, &u2, &v2, &X2, &Y2,
-                                   &q2x, &q2y);
+                    inv_apply_from(sc, &m, x + 0.5, y, &u1, &v1, &X1, &Y1, &q1x,
+                                   &q1y);
+                    inv_apply_from(sc, &m, x, y + 0.5, &u2, &v2, &X2, &Y2, &q2x,
+                                   &q2y);
                     double ax = 2 * (q1x - qx), ay = 2 * (q1y - qy);
                     double bx = 2 * (q2x - qx), by = 2 * (q2y - qy);
                     double sum = 0.0, e2;
@@ -375,9 +377,9 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
                         for (int i = 0; i < ss; i++) {
                             double dx = (i + 0.5) / ss - 0.5;
                             double dy = (j + 0.5) / ss - 0.5;
-                            sum += scene_at(sc, t, marks,
-                                            qx + ax * dx + bx * dy,
-                                            qy + ay * dx + by * dy, &e2);
+                            sum +=
+                                scene_at(sc, t, marks, qx + ax * dx + bx * dy,
+                                         qy + ay * dx + by * dy, &e2);
                         }
                     v = sum / (ss * ss);
                 }
@@ -432,8 +434,9 @@ int rt_render(const rt_scene *sc, const mb_target *t, mb_image *out)
             if (sc->noise > 0.0)
                 v += sc->noise * rng_gauss();
             v = floor(v + 0.5);
-            out->pixels[(size_t)y * out->stride + x] =
-                (uint8_t)(v < 0 ? 0 : v > 255 ? 255 : v);
+            out->pixels[(size_t)y * out->stride + x] = (uint8_t)(v < 0     ? 0
+                                                                 : v > 255 ? 255
+                                                                           : v);
         }
     free(buf);
     free(tmp);

@@ -31,25 +31,25 @@
 #include "target.h"
 
 typedef struct {
-    int width, height;    /**< px */
-    double f;             /**< focal length, px */
-    double height_mm;     /**< camera to target centre along the axis, mm */
+    int width, height; /**< px */
+    double f;          /**< focal length, px */
+    double height_mm;  /**< camera to target centre along the axis, mm */
     double tilt_x_deg, tilt_y_deg, roll_deg;
-    double k[4];          /**< k1, k2, p1, p2 (camera.h's normalisation) */
-    double angle_deg;     /**< target's turn on the plane (frame pose) */
-    double shift_mm[2];   /**< and shift */
-    double centre_px[2];  /**< where the target centre of frame 0's pose is
-                               seen (before distortion); default frame
-                               centre when both are 0 */
+    double k[4];         /**< k1, k2, p1, p2 (camera.h's normalisation) */
+    double angle_deg;    /**< target's turn on the plane (frame pose) */
+    double shift_mm[2];  /**< and shift */
+    double centre_px[2]; /**< where the target centre of frame 0's pose is
+                              seen (before distortion); default frame
+                              centre when both are 0 */
     double white, black, conveyor; /**< grey levels */
-    double margin_pitch;  /**< white sheet around the outer dot centres, in
-                               pitches (1.5 as printed) */
-    double vignette;      /**< corners darker by this fraction */
-    double blur;          /**< Gaussian blur sigma, px (0 = none) */
-    double noise;         /**< Gaussian noise sigma, grey levels */
-    int supersample;      /**< samples per axis near edges (8) */
-    int no_marks;         /**< 1: draw the dots only (a foreign target) */
-    uint64_t seed;        /**< noise seed */
+    double margin_pitch; /**< white sheet around the outer dot centres, in
+                              pitches (1.5 as printed) */
+    double vignette;     /**< corners darker by this fraction */
+    double blur;         /**< Gaussian blur sigma, px (0 = none) */
+    double noise;        /**< Gaussian noise sigma, grey levels */
+    int supersample;     /**< samples per axis near edges (8) */
+    int no_marks;        /**< 1: draw the dots only (a foreign target) */
+    uint64_t seed;       /**< noise seed */
 } rt_scene;
 
 /** Defaults: 800 x 600, f 1000, 250 mm height (0.25 mm/px at the centre),
@@ -72,8 +72,7 @@ int rt_plane_of_px(const rt_scene *sc, const mb_target *t, double x, double y,
 
 /** True local scale sqrt(|det d(X,Y)/d(x,y)|) mm per px at pixel (x, y),
     by central differences of rt_plane_of_px. */
-double rt_mm_per_px(const rt_scene *sc, const mb_target *t, double x,
-                    double y);
+double rt_mm_per_px(const rt_scene *sc, const mb_target *t, double x, double y);
 
 /** Area centroid of the image of dot (r, c) (polygon of 256 vertices):
     where an exact centroid detector would put the dot. */

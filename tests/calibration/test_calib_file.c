@@ -32,7 +32,7 @@ static mb_calib sample(void)
     memset(&c, 0, sizeof c);
     c.width = 1280;
     c.height = 1024;
-    const double h[9] = {4.0 / 3.0, -1e-3 / 7.0, 2.5e-5, 0.1 / 3.0, 4.1,
+    const double h[9] = {4.0 / 3.0,     -1e-3 / 7.0, 2.5e-5, 0.1 / 3.0, 4.1,
                          -1.0e-5 / 3.0, 101.0 / 3.0, 87.125, 1.0};
     memcpy(c.h, h, sizeof h);
     c.cx = 639.5;
@@ -68,10 +68,12 @@ static void same(const mb_calib *a, const mb_calib *b)
     assert_int_equal(a->width, b->width);
     assert_int_equal(a->height, b->height);
     assert_memory_equal(a->h, b->h, sizeof a->h);
-    const double va[] = {a->cx, a->cy, a->radius, a->k1, a->k2, a->p1,
-                         a->p2, a->pitch, a->rms_px, a->worst_px, a->coverage};
-    const double vb[] = {b->cx, b->cy, b->radius, b->k1, b->k2, b->p1,
-                         b->p2, b->pitch, b->rms_px, b->worst_px, b->coverage};
+    const double va[] = {a->cx,     a->cy,       a->radius,  a->k1,
+                         a->k2,     a->p1,       a->p2,      a->pitch,
+                         a->rms_px, a->worst_px, a->coverage};
+    const double vb[] = {b->cx,     b->cy,       b->radius,  b->k1,
+                         b->k2,     b->p1,       b->p2,      b->pitch,
+                         b->rms_px, b->worst_px, b->coverage};
     assert_memory_equal(va, vb, sizeof va);
     assert_int_equal(a->rows, b->rows);
     assert_int_equal(a->cols, b->cols);
@@ -154,7 +156,8 @@ static cJSON *at(cJSON *root, const char *a, const char *b)
 
 static void e_format(cJSON *r)
 {
-    cJSON_ReplaceItemInObject(r, "format", cJSON_CreateString("modeband-model"));
+    cJSON_ReplaceItemInObject(r, "format",
+                              cJSON_CreateString("modeband-model"));
 }
 static void e_version(cJSON *r)
 {

@@ -68,15 +68,14 @@ static void test_cells(void **state)
     for (size_t k = 0; k < sizeof sizes / sizeof sizes[0]; k++) {
         mb_target t;
         char err[MB_ERR_LEN];
-        assert_int_equal(mb_target_init(sizes[k][0], sizes[k][1], 12.5, &t,
-                                        err),
-                         0);
+        assert_int_equal(
+            mb_target_init(sizes[k][0], sizes[k][1], 12.5, &t, err), 0);
         int seen[MB_TARGET_CODE_BITS] = {0}, marks = 0, corners = 0;
         for (int r = 0; r < t.rows - 1; r++)
             for (int c = 0; c < t.cols - 1; c++) {
                 int bit = mb_target_cell_bit(&t, r, c);
-                int corner = (r == 0 || r == t.rows - 2) &&
-                             (c == 0 || c == t.cols - 2);
+                int corner =
+                    (r == 0 || r == t.rows - 2) && (c == 0 || c == t.cols - 2);
                 if (corner) {
                     assert_int_equal(bit, -1);
                     corners += mb_target_cell_marked(&t, r, c);
@@ -166,7 +165,8 @@ static void test_svg(void **state)
 static void test_dlt(void **state)
 {
     (void)state;
-    const double h[9] = {2.1, 0.13, 1.1e-4, -0.2, 1.9, -2.3e-4, 310.0, 220.0, 1.0};
+    const double h[9] = {2.1,     0.13,  1.1e-4, -0.2, 1.9,
+                         -2.3e-4, 310.0, 220.0,  1.0};
     double src[2 * 30], dst[2 * 30], g[9];
     for (int i = 0; i < 30; i++) {
         src[2 * i] = (i % 6) * 17.0 - 20.0 + 0.3 * i;
@@ -256,12 +256,12 @@ static void test_round_trips(void **state)
             mb_calib_px_to_mm(&c, x, y - e, &Xd, &Yd);
             double j00 = (Xa - Xb) / (2 * e), j10 = (Ya - Yb) / (2 * e);
             double j01 = (Xc - Xd) / (2 * e), j11 = (Yc - Yd) / (2 * e);
-            worst_s = fmax(worst_s, fabs(s.jacobian[0] - j00) +
-                                        fabs(s.jacobian[1] - j10) +
-                                        fabs(s.jacobian[2] - j01) +
-                                        fabs(s.jacobian[3] - j11));
-            assert_true(fabs(s.mm_per_px -
-                             sqrt(fabs(j00 * j11 - j01 * j10))) < 1e-7);
+            worst_s =
+                fmax(worst_s,
+                     fabs(s.jacobian[0] - j00) + fabs(s.jacobian[1] - j10) +
+                         fabs(s.jacobian[2] - j01) + fabs(s.jacobian[3] - j11));
+            assert_true(fabs(s.mm_per_px - sqrt(fabs(j00 * j11 - j01 * j10))) <
+                        1e-7);
             assert_true(s.mm_per_px_min <= s.mm_per_px + 1e-12 &&
                         s.mm_per_px <= s.mm_per_px_max + 1e-12);
         }
@@ -335,7 +335,8 @@ static const double poses[FR][3] = {{0, 0, 0}, {25, -20, 12}, {-70, 18, -10}};
 static void pose(rt_scene *sc, const mb_target *t, double a, double dx,
                  double dy)
 {
-    double mx = 0.5 * (t->cols - 1) * t->pitch, my = 0.5 * (t->rows - 1) * t->pitch;
+    double mx = 0.5 * (t->cols - 1) * t->pitch,
+           my = 0.5 * (t->rows - 1) * t->pitch;
     double r = a * M_PI / 180.0;
     sc->angle_deg = a;
     sc->shift_mm[0] = mx + dx - (cos(r) * mx - sin(r) * my);
@@ -354,8 +355,8 @@ static void true_scene(rt_scene *sc)
     sc->k[3] = -0.001;
 }
 
-static int fit(const mb_target *t, int centroids, int bias_passes,
-               mb_calib *c, double *max_h_err)
+static int fit(const mb_target *t, int centroids, int bias_passes, mb_calib *c,
+               double *max_h_err)
 {
     rt_scene sc;
     true_scene(&sc);
@@ -376,9 +377,16 @@ static int fit(const mb_target *t, int centroids, int bias_passes,
                 rt_project(&sc, t, tq[2 * q], tq[2 * q + 1], &o[0], &o[1]);
         }
     }
-    mb_calib_problem P = {800, 600, FR, N, tq, obs,
+    mb_calib_problem P = {800,
+                          600,
+                          FR,
+                          N,
+                          tq,
+                          obs,
                           centroids ? 0.5 * t->dot_diameter : 0.0,
-                          t->rows, t->cols, t->pitch};
+                          t->rows,
+                          t->cols,
+                          t->pitch};
     mb_calib_options opt;
     mb_calib_options_default(&opt);
     opt.bias_passes = bias_passes;
@@ -416,8 +424,8 @@ static void test_fit_exact(void **state)
     assert_int_equal(fit(&t, 0, 0, &c, &herr), 0);
     printf("exact centres: RMS %.2e px, k %.8f %.8f %.8f %.8f (truth %.4f "
            "%.4f %.4f %.4f), H error %.2e px, %d iterations\n",
-           c.rms_px, c.k1, c.k2, c.p1, c.p2, sc.k[0], sc.k[1], sc.k[2],
-           sc.k[3], herr, c.iterations);
+           c.rms_px, c.k1, c.k2, c.p1, c.p2, sc.k[0], sc.k[1], sc.k[2], sc.k[3],
+           herr, c.iterations);
     assert_true(c.rms_px < 1e-7);
     assert_true(fabs(c.k1 - sc.k[0]) < 1e-7 && fabs(c.k2 - sc.k[1]) < 1e-7);
     assert_true(fabs(c.p1 - sc.k[2]) < 1e-8 && fabs(c.p2 - sc.k[3]) < 1e-8);

@@ -41,7 +41,8 @@
 static void pose(rt_scene *sc, const mb_target *t, double a, double dx,
                  double dy)
 {
-    double mx = 0.5 * (t->cols - 1) * t->pitch, my = 0.5 * (t->rows - 1) * t->pitch;
+    double mx = 0.5 * (t->cols - 1) * t->pitch,
+           my = 0.5 * (t->rows - 1) * t->pitch;
     double r = a * M_PI / 180.0;
     sc->angle_deg = a;
     sc->shift_mm[0] = mx + dx - (cos(r) * mx - sin(r) * my);
@@ -97,8 +98,7 @@ static const double poses[NF][3] = {
 
 /* Detect the target in NF frames of scene sc and fit the model. */
 static void calibrate_scene(rt_scene sc, const char *what, double rms_max,
-                            double centre_max, double scale_max,
-                            double k1_tol)
+                            double centre_max, double scale_max, double k1_tol)
 {
     mb_target t;
     char err[MB_ERR_LEN];
@@ -127,16 +127,16 @@ static void calibrate_scene(rt_scene sc, const char *what, double rms_max,
         cworst_all = fmax(cworst_all, cworst);
     }
     crms_all = sqrt(crms_all);
-    mb_calib_problem P = {sc.width, sc.height, NF, N, tq, xy,
-                          0.5 * t.dot_diameter, 7, 9, 10.0};
+    mb_calib_problem P = {
+        sc.width, sc.height, NF, N, tq, xy, 0.5 * t.dot_diameter, 7, 9, 10.0};
     mb_calib c;
     int rc = mb_calib_estimate(&P, NULL, &c, NULL, err);
     if (rc)
         printf("%s: %s\n", what, err);
     assert_int_equal(rc, 0);
     pose(&sc, &t, 0, 0, 0);
-    const double pts[5][2] = {{399.5, 299.5}, {150, 110}, {650, 110},
-                              {150, 490}, {650, 490}};
+    const double pts[5][2] = {
+        {399.5, 299.5}, {150, 110}, {650, 110}, {150, 490}, {650, 490}};
     double worst_scale = 0.0, worst_pos = 0.0, worst_trip = 0.0;
     for (int i = 0; i < 5; i++) {
         mb_calib_scale s;
@@ -144,9 +144,10 @@ static void calibrate_scene(rt_scene sc, const char *what, double rms_max,
         assert_int_equal(mb_calib_local_scale(&c, pts[i][0], pts[i][1], &s), 0);
         double truth = rt_mm_per_px(&sc, &t, pts[i][0], pts[i][1]);
         worst_scale = fmax(worst_scale, fabs(s.mm_per_px / truth - 1.0));
-        assert_int_equal(mb_calib_px_to_mm(&c, pts[i][0], pts[i][1], &X, &Y), 0);
-        assert_int_equal(rt_plane_of_px(&sc, &t, pts[i][0], pts[i][1], &Xt, &Yt),
+        assert_int_equal(mb_calib_px_to_mm(&c, pts[i][0], pts[i][1], &X, &Y),
                          0);
+        assert_int_equal(
+            rt_plane_of_px(&sc, &t, pts[i][0], pts[i][1], &Xt, &Yt), 0);
         worst_pos = fmax(worst_pos, hypot(X - Xt, Y - Yt));
         assert_int_equal(mb_calib_mm_to_px(&c, X, Y, &x2, &y2), 0);
         worst_trip = fmax(worst_trip, hypot(x2 - pts[i][0], y2 - pts[i][1]));
@@ -194,7 +195,8 @@ static double dot_error(const rt_scene *sc, const mb_target *t,
 {
     double x, y;
     rt_dot_centroid(sc, t, r, c, &x, &y);
-    return hypot(xy[2 * (r * t->cols + c)] - x, xy[2 * (r * t->cols + c) + 1] - y);
+    return hypot(xy[2 * (r * t->cols + c)] - x,
+                 xy[2 * (r * t->cols + c) + 1] - y);
 }
 
 static void test_orientation(void **state)
@@ -403,8 +405,7 @@ static void test_two_planes(void **state)
     mb_calib_problem P = {800, 600, 2, 63, tq, xy, 2.5, 7, 9, 10.0};
     mb_calib c;
     int rc = mb_calib_estimate(&P, NULL, &c, NULL, err);
-    printf("two planes 10 mm apart, full model: %s\n",
-           rc ? err : "fitted");
+    printf("two planes 10 mm apart, full model: %s\n", rc ? err : "fitted");
     assert_true(rc == MB_ERANGE || (rc == 0 && c.rms_px > 0.5));
     if (rc)
         assert_non_null(strstr(err, "flat"));
@@ -422,10 +423,8 @@ static void test_two_planes(void **state)
 int main(void)
 {
     const struct CMUnitTest tests[] = {
-        cmocka_unit_test(test_noise_free),
-        cmocka_unit_test(test_noisy),
-        cmocka_unit_test(test_orientation),
-        cmocka_unit_test(test_refusals),
+        cmocka_unit_test(test_noise_free),  cmocka_unit_test(test_noisy),
+        cmocka_unit_test(test_orientation), cmocka_unit_test(test_refusals),
         cmocka_unit_test(test_two_planes),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -119,12 +119,10 @@ static void test_refusals(void **state)
     double bad[9];
     memcpy(bad, example, sizeof bad);
     bad[4] = INFINITY;
-    assert_int_equal(mb_grr_compute(bad, counts, 3, 0.2, &g, err),
-                     MB_ENUMERIC);
+    assert_int_equal(mb_grr_compute(bad, counts, 3, 0.2, &g, err), MB_ENUMERIC);
     assert_non_null(strstr(err, "part 2, measurement 2"));
     const int neg[3] = {3, -1, 2};
-    assert_int_equal(mb_grr_compute(example, neg, 3, 0.2, &g, err),
-                     MB_EINVAL);
+    assert_int_equal(mb_grr_compute(example, neg, 3, 0.2, &g, err), MB_EINVAL);
 }
 
 int main(void)
