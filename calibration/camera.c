@@ -126,6 +126,15 @@ static void dist_apply(const double k[4], double u, double v, double *du,
 /* Solve D(u, v) = (du, dv) by Newton's method with step halving, from
    (du, dv). Fails where the Jacobian is not positive definite in the sense
    of a positive determinant (the map folds there). */
+static int dist_ok(const double k[4], double u, double v)
+{
+    /* The physical branch: beyond the fold a strong barrel distortion
+       has further solutions, mirrored through the centre (radial factor
+       negative) or folded back (Jacobian determinant negative). */
+    double r2 = u * u + v * v;
+    return 1.0 + k[0] * r2 + k[1] * r2 * r2 > 0.0;
+}
+
 static int dist_invert(const double k[4], double du, double dv, double *u,
                        double *v)
 {
@@ -134,6 +143,8 @@ static int dist_invert(const double k[4], double du, double dv, double *u,
     double e = hypot(fx - du, fy - dv);
     for (int it = 0; it < 50; it++) {
         if (e <= 1e-12) {
+            if (!(J[0] * J[3] - J[1] * J[2] > 0.0) || !dist_ok(k, x, y))
+                return MB_ENOCONV;
             *u = x;
             *v = y;
             return MB_OK;
@@ -165,7 +176,7 @@ static int dist_invert(const double k[4], double du, double dv, double *u,
         e = ne;
         memcpy(J, nJ, sizeof J);
     }
-    if (e <= 1e-12) {
+    if (e <= 1e-12 && J[0] * J[3] - J[1] * J[2] > 0.0 && dist_ok(k, x, y)) {
         *u = x;
         *v = y;
         return MB_OK;

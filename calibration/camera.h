@@ -84,10 +84,13 @@ typedef struct {
     double coverage; /**< fraction of the frame inside the convex hull of
                           all dots seen: distortion outside it is
                           extrapolated */
-    double frame_rms_px[MB_CALIB_MAX_FRAMES];      /**< RMS per frame, px */
-    double frame_angle_deg[MB_CALIB_MAX_FRAMES];   /**< target's turn on the
-                               plane relative to frame 0, degrees */
-    double frame_shift_mm[MB_CALIB_MAX_FRAMES][2]; /**< and its shift, mm */
+    /** RMS per frame, px. */
+    double frame_rms_px[MB_CALIB_MAX_FRAMES];
+    /** The target's turn on the plane relative to frame 0, degrees. */
+    double frame_angle_deg[MB_CALIB_MAX_FRAMES];
+    /** And its shift, mm: where its dot (row 0, column 0) lies on the
+        plane, so a target point Q is at R(angle) Q + shift. */
+    double frame_shift_mm[MB_CALIB_MAX_FRAMES][2];
     int iterations;   /**< Levenberg-Marquardt iterations, all passes */
     char created[32]; /**< UTC date "YYYY-MM-DDTHH:MM:SSZ", set by the
                            caller (the library reads no clock) */

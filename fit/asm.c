@@ -466,6 +466,21 @@ static double select_kth(double *v, int n, int kth)
    samples per line instead of 29 (refine_range 8). */
 #define NEAR_RANGE 1
 
+/* mb_pyramid_sample for a point known to lie inside the image, at least
+   1 px from its right and bottom edges: the same arithmetic without the
+   clamps and the call (the measurement reads some 50 points per normal and
+   two thousand normals per frame). */
+static inline double sample_inside(const mb_image *img, double x, double y)
+{
+    const int x0 = (int)x, y0 = (int)y;
+    const double fx = x - x0, fy = y - y0;
+    const uint8_t *p = img->pixels + (size_t)y0 * img->stride + x0;
+    const uint8_t *q = p + img->stride;
+    double top = p[0] + fx * (p[1] - p[0]);
+    double bot = q[0] + fx * (q[1] - q[0]);
+    return top + fy * (bot - top);
+}
+
 /*
  * Sub-pixel edge along one normal at full resolution, from the mean of the
  * grey profiles on the normal and on two lines SIDE px either side of it,
@@ -480,11 +495,22 @@ static int edge_within(mb_asm *a, const mb_image *img, double x, double y,
     const int m = 2 * (r + 6) + 1, c = r + 6;
     double *gr = a->grey, *dv = a->diff;
     const double tx = -ny * SIDE, ty = nx * SIDE;
-    for (int j = 0; j < m; j++) {
-        double t = j - c, px = x + t * nx, py = y + t * ny;
-        gr[j] = (mb_pyramid_sample(img, px, py) +
-                 mb_pyramid_sample(img, px - tx, py - ty) +
-                 mb_pyramid_sample(img, px + tx, py + ty)) * (1.0 / 3.0);
+    /* every point read lies within c + SIDE of (x, y) */
+    const double reach = c + 1.0;
+    if (x - reach > 0.0 && y - reach > 0.0 && x + reach < img->width - 1 &&
+        y + reach < img->height - 1) {
+        for (int j = 0; j < m; j++) {
+            double t = j - c, px = x + t * nx, py = y + t * ny;
+            gr[j] = (sample_inside(img, px, py) + sample_inside(img, px - tx, py - ty) +
+                     sample_inside(img, px + tx, py + ty)) * (1.0 / 3.0);
+        }
+    } else {
+        for (int j = 0; j < m; j++) {
+            double t = j - c, px = x + t * nx, py = y + t * ny;
+            gr[j] = (mb_pyramid_sample(img, px, py) +
+                     mb_pyramid_sample(img, px - tx, py - ty) +
+                     mb_pyramid_sample(img, px + tx, py + ty)) * (1.0 / 3.0);
+        }
     }
     /* central differences of the taught polarity, grey per px */
     for (int j = 1; j + 1 < m; j++)

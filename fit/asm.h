@@ -62,8 +62,9 @@
  * cubic's, turned to agree with the landmarks'. The sample at f = 0 is
  * landmark i itself (its measurement is copied, not repeated), so the
  * dense samples of an outline run round it in order without a hole. At a
- * sharp corner (a cut end, a lip tip) the cubic still rounds the corner:
- * the caller relaxes its limits there (inspect/verdict.c). The count is
+ * sharp corner (a cut end, a lip tip) the cubic still rounds the corner
+ * and its normals sweep through it: the caller relaxes its limits near
+ * corners and leaves the samples of sharp ones out (inspect/verdict.c). The count is
  * bounded in mb_asm_create by twice the model outline's length at the
  * taught size (profile stats size) over dense_step, plus one per landmark;
  * a larger part gets proportionally wider spacing, never a buffer overrun.

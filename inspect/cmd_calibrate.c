@@ -118,9 +118,8 @@ int mb_cmd_calibrate(int argc, char **argv)
     }
     double *img_xy = malloc(sizeof *img_xy * 2 * (size_t)N * n);
     double *tgt_xy = malloc(sizeof *tgt_xy * 2 * (size_t)N);
-    double *res = malloc(sizeof *res * 2 * (size_t)N * n);
     int width = 0, height = 0, rc = MB_EXIT_FAIL;
-    if (!img_xy || !tgt_xy || !res) {
+    if (!img_xy || !tgt_xy) {
         mb_cli_fail("calibrate", "out of memory");
         goto done;
     }
@@ -162,15 +161,22 @@ int mb_cmd_calibrate(int argc, char **argv)
                info.coded_pitch, info.mirrored ? " (image mirrored)" : "");
     }
 
-    mb_calib_problem prob = {
-        width, height, n,      N, tgt_xy, img_xy, 0.5 * t.dot_diameter,
-        rows,  cols,   t.pitch};
+    mb_calib_problem prob = {.width = width,
+                             .height = height,
+                             .n_frames = n,
+                             .n_points = N,
+                             .target_xy = tgt_xy,
+                             .image_xy = img_xy,
+                             .dot_radius = 0.5 * t.dot_diameter,
+                             .rows = rows,
+                             .cols = cols,
+                             .pitch = t.pitch};
     mb_calib_options opt;
     mb_calib_options_default(&opt);
     opt.radial_terms = radial;
     opt.tangential = !no_tan;
     mb_calib cal;
-    if (mb_calib_estimate(&prob, &opt, &cal, res, err) < 0) {
+    if (mb_calib_estimate(&prob, &opt, &cal, NULL, err) < 0) {
         mb_cli_fail("calibrate", err);
         goto done;
     }
@@ -186,8 +192,8 @@ int mb_cmd_calibrate(int argc, char **argv)
            cal.rms_px, cal.worst_point / cols + 1, cal.worst_point % cols + 1,
            frames[cal.worst_frame], cal.worst_px);
     for (int f = 0; f < n && n > 1; f++)
-        printf("  %s: RMS %.4f px, target turned %.2f deg, moved (%.2f, %.2f) "
-               "mm\n",
+        printf("  %s: RMS %.4f px, target turned %.2f deg, its first dot at "
+               "(%.2f, %.2f) mm\n",
                frames[f], cal.frame_rms_px[f], cal.frame_angle_deg[f],
                cal.frame_shift_mm[f][0], cal.frame_shift_mm[f][1]);
     printf("dots covered %.0f %% of the frame\n", 100.0 * cal.coverage);
@@ -224,6 +230,5 @@ int mb_cmd_calibrate(int argc, char **argv)
 done:
     free(img_xy);
     free(tgt_xy);
-    free(res);
     return rc;
 }

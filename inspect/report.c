@@ -868,6 +868,26 @@ void mb_report_print(const mb_report *r, FILE *out)
     if (r->fault_events) {
         fprintf(out, "\ncamera, PLC and other faults: %ld event(s)\n",
                 r->fault_events);
+        static const char *const sources[] = {"camera", "plc", "log", "model"};
+        for (int k = 0; k < 4; k++) {
+            long lost = 0, restored = 0;
+            double down = 0;
+            for (int i = 0; i < r->n_events; i++) {
+                const event *e = &r->events[i];
+                if (e->kind != MB_SLOG_FAULT || strcmp(e->a, sources[k]))
+                    continue;
+                lost += !strcmp(e->state, "lost");
+                if (!strcmp(e->state, "restored")) {
+                    restored++;
+                    if (isfinite(e->duration_s))
+                        down += e->duration_s;
+                }
+            }
+            if (lost || restored)
+                fprintf(out, "  %-7s lost %ld time(s), restored %ld, %.1f s down in total%s\n",
+                        sources[k], lost, restored, down,
+                        lost > restored ? " (still lost at the end)" : "");
+        }
         for (int i = 0; i < r->n_events; i++) {
             const event *e = &r->events[i];
             if (e->kind != MB_SLOG_FAULT)

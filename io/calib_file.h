@@ -20,7 +20,8 @@
  *                    "coverage": .., "iterations": n,
  *                    "frame_rms_px": [F values] },
  *     "poses": [ { "angle_deg": a, "shift_mm": [x, y] }, ... F ]
- *                 the target's pose in each frame relative to frame 1
+ *                 the target's pose on the plane in each frame: turned
+ *                 by a relative to frame 1, its first dot at (x, y) mm
  *   }
  * Doubles are printed with up to 17 significant digits (io/json_util.h), so
  * a save/load round trip is bit-exact. worst_frame and worst_point are

@@ -74,21 +74,32 @@ static void distort_n(const double k[4], double u, double v, double *ud,
     *vd = v * g + k[2] * (r2 + 2.0 * v * v) + 2.0 * k[3] * u * v;
 }
 
-/* Inverse of the distortion by Newton's method with a numerical
-   Jacobian (independent of camera.c's analytic one). */
+/* The distortion's Jacobian determinant at (u, v), by differences. */
+static double dist_det(const double k[4], double u, double v)
+{
+    const double e = 1e-7;
+    double fx, fy, ax, ay, bx, by;
+    distort_n(k, u, v, &fx, &fy);
+    distort_n(k, u + e, v, &ax, &ay);
+    distort_n(k, u, v + e, &bx, &by);
+    return ((ax - fx) * (by - fy) - (bx - fx) * (ay - fy)) / (e * e);
+}
+
+/* Inverse of the distortion by Newton's method with a numerical Jacobian
+   (independent of camera.c's analytic one), from the caller's guess in
+   (*u, *v). Only the branch where the lens does not fold over counts
+   (positive Jacobian determinant and radial factor): strong barrel
+   distortion has unphysical solutions beyond the fold. */
 static int undistort_n(const double k[4], double ud, double vd, double *u,
                        double *v)
 {
-    double x = *u, y = *v; /* the caller's starting guess */
+    double x = *u, y = *v;
     for (int it = 0; it < 100; it++) {
         double fx, fy;
         distort_n(k, x, y, &fx, &fy);
         double ex = fx - ud, ey = fy - vd;
-        if (ex * ex + ey * ey < 1e-28) {
-            *u = x;
-            *v = y;
-            return 0;
-        }
+        if (ex * ex + ey * ey < 1e-28)
+            break;
         const double e = 1e-7;
         double ax, ay, bx, by;
         distort_n(k, x + e, y, &ax, &ay);
@@ -103,7 +114,9 @@ static int undistort_n(const double k[4], double ud, double vd, double *u,
     }
     double fx, fy;
     distort_n(k, x, y, &fx, &fy);
-    if (hypot(fx - ud, fy - vd) < 1e-12) {
+    double r2 = x * x + y * y;
+    if (hypot(fx - ud, fy - vd) < 1e-12 && dist_det(k, x, y) > 0.0 &&
+        1.0 + k[0] * r2 + k[1] * r2 * r2 > 0.0) {
         *u = x;
         *v = y;
         return 0;
@@ -192,9 +205,13 @@ static int inv_apply_from(const rt_scene *sc, const inv_map *m, double x,
                           double *Y, double *qx, double *qy)
 {
     double u = *pu, v = *pv;
-    if (undistort_n(sc->k, (x - m->cx) / m->rho, (y - m->cy) / m->rho, &u, &v) <
-        0)
-        return -1;
+    const double ud = (x - m->cx) / m->rho, vd = (y - m->cy) / m->rho;
+    if (undistort_n(sc->k, ud, vd, &u, &v) < 0) {
+        u = ud; /* the warm start failed: start from the pixel itself */
+        v = vd;
+        if (undistort_n(sc->k, ud, vd, &u, &v) < 0)
+            return -1;
+    }
     *pu = u;
     *pv = v;
     double xu = m->cx + m->rho * u, yu = m->cy + m->rho * v;
