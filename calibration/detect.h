@@ -20,16 +20,24 @@
  *      code unreadable (ORIENTATION); a pitch code other than the pitch
  *      given, by more than max_pitch_error (PITCH).
  *   4. Orientation and code: the corner marks fix which lattice corner is
- *      dot (0, 0); when two readings remain (square grids: the target and
- *      its mirror image), the one that keeps the sheet's handedness (a
- *      camera that sees the front of the sheet) is used.
+ *      dot (0, 0) (judged against the three marked corners' mean contrast,
+ *      so that blur does not hide them). When two readings remain (square
+ *      grids: the target and its mirror image), the one that keeps the
+ *      sheet's handedness (a camera that sees the front of the sheet) is
+ *      tried first, and the first whose pitch code has valid check bits is
+ *      used. Millimetres always come from the pitch given; the code only
+ *      decides whether to refuse it.
  *   5. Sub-pixel centres: grey-weighted centroid of 1 - grey / background
- *      over a window of 0.45 lattice cells around each dot (an ellipse
- *      following the local lattice), the background a plane fitted to the
- *      ring from 0.45 to 0.55 cells; twice re-centred. For a linear
- *      sensor, blur and anti-aliasing this is the area centroid of the
- *      dark disc's image (calibration/camera.h corrects that for
- *      perspective and distortion).
+ *      over a window around each dot (an ellipse following the local
+ *      lattice) reaching 4 px beyond the dot's edge, at most 0.45 of a
+ *      cell from its centre; the background a plane fitted to the ring
+ *      from 0.45 to 0.55 cells; re-centred until it moves less than
+ *      1e-4 px (3 passes at most). For a linear sensor, blur and
+ *      anti-aliasing this is the area centroid of the dark disc's image
+ *      (calibration/camera.h corrects that for perspective and
+ *      distortion). Measured on rendered frames (tests/calibration): 0.003
+ *      px RMS from the true centroid without noise, 0.009 px with noise
+ *      of 2 grey levels and blur of 1 px, at about 40 px pitch.
  *
  * Allocation: each call allocates its working memory (a label image and
  * blob lists) and frees it; detection runs at calibration time, not per

@@ -58,15 +58,16 @@
  * h, i, j, k (uniform parameter f in 0..1 from i to j), not the chord: on
  * a circle of radius R cut every L px the chord misses the curve by
  * L^2 / 8R (0.2 px for L = 5 px on a 16 px hole, the size of a local
- * limit), the cubic by about a hundredth of that; the normal there is the
+ * limit), the cubic by 0.004 px, a fiftieth of that; the normal there is the
  * cubic's, turned to agree with the landmarks'. The sample at f = 0 is
  * landmark i itself (its measurement is copied, not repeated), so the
  * dense samples of an outline run round it in order without a hole. At a
  * sharp corner (a cut end, a lip tip) the cubic still rounds the corner
  * and its normals sweep through it: the caller relaxes its limits near
- * corners and leaves the samples of sharp ones out (inspect/verdict.c). The count is
- * bounded in mb_asm_create by twice the model outline's length at the
- * taught size (profile stats size) over dense_step, plus one per landmark;
+ * corners and leaves the samples of sharp ones out (inspect/verdict.c).
+ * The count is bounded in mb_asm_create by twice the model outline's
+ * length at the taught size (profile stats size) over dense_step, plus one
+ * per landmark;
  * a larger part gets proportionally wider spacing, never a buffer overrun.
  *
  * Signs: dist = (measured - model) . normal, px, with the normal pointing

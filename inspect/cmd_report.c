@@ -18,7 +18,7 @@
 static const char *const report_help =
     "usage: modeband report --logs DIR [--shift NAME --date YYYY-MM-DD]\n"
     "                       [--from TIME] [--to TIME] [--html FILE] [--csv FILE]\n"
-    "                       [--title TEXT] [--quiet]\n"
+    "                       [--title TEXT] [--quiet] [--threads N]\n"
     "\n"
     "Summarise the shift logs (DIR/<date>_<shift>.jsonl): parts, passes,\n"
     "rejects, faults and yield; a Pareto table of reasons; where located\n"
@@ -35,6 +35,8 @@ static const char *const report_help =
     "  --csv FILE      also write one row per part\n"
     "  --title TEXT    title of the HTML page\n"
     "  --quiet         no terminal summary\n"
+    "  --threads N     log files read at once, 1..8 (default 2; with --csv\n"
+    "                  the files are read one after the other)\n"
     "\n"
     "Torn last lines, invalid lines and lines of a newer format version are\n"
     "skipped and said. Exit status: 0 done, 1 failure, 2 usage error.\n";
@@ -54,7 +56,7 @@ int mb_cmd_report(int argc, char **argv)
 {
     const char *logs = NULL, *shift = NULL, *date = NULL, *from_s = NULL;
     const char *to_s = NULL, *html = NULL, *csv = NULL, *title = NULL;
-    int quiet = 0, help = 0, npos = 0;
+    int quiet = 0, help = 0, npos = 0, threads = 2;
     const char *pos[1];
     char err[MB_ERR_LEN];
     const mb_opt opts[] = {
@@ -67,6 +69,7 @@ int mb_cmd_report(int argc, char **argv)
         {"csv", MB_OPT_STRING, &csv, NULL},
         {"title", MB_OPT_STRING, &title, NULL},
         {"quiet", MB_OPT_FLAG, &quiet, NULL},
+        {"threads", MB_OPT_INT, &threads, NULL},
     };
     if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], pos, 0,
                      &npos, &help, err) < 0)
@@ -113,12 +116,13 @@ int mb_cmd_report(int argc, char **argv)
         }
         mb_report_set_csv(r, cf);
     }
-    for (int i = 0; i < list.count; i++) {
-        int k = mb_report_add_file(r, list.paths[i], &filter, err);
-        if (k < 0) {
-            rc = mb_cli_fail("report", err);
-            goto out;
-        }
+    if (threads < 1 || threads > MB_REPORT_MAX_THREADS) {
+        rc = mb_cli_usage_error("report", "--threads: expected 1..8");
+        goto out;
+    }
+    if (mb_report_add_files(r, list.paths, list.count, &filter, threads, err) < 0) {
+        rc = mb_cli_fail("report", err);
+        goto out;
     }
     if (cf) {
         int bad = ferror(cf);

@@ -12,6 +12,7 @@
 #include <errno.h>
 #include <math.h>
 #include <png.h>
+#include <pthread.h>
 #include <stdarg.h>
 #include <stdint.h>
 #include <stdlib.h>
@@ -117,6 +118,8 @@ struct mb_report {
     int n_thumbs;
     long rejects_with_image;
     char last_checksum[MB_SLOG_NAME_LEN];
+    char first_checksum[MB_SLOG_NAME_LEN]; /* the first one met */
+    int first_from_part; /* ... and it was on a part, not a model record */
     double t_first, t_last; /* local clock of the first and last record */
     char time_first[MB_SLOG_TIME_LEN], time_last[MB_SLOG_TIME_LEN];
     const mb_report_filter *filter; /* during add_file */
@@ -189,21 +192,26 @@ static void cpy(char *dst, size_t cap, const char *src)
     dst[n] = '\0';
 }
 
-static void count_reason(mb_report *r, const char *name)
+static void count_reason_n(mb_report *r, const char *name, long n)
 {
     if (!name[0])
         name = "(none)";
     for (int i = 0; i < r->n_reasons; i++)
         if (!strcmp(r->reasons[i].name, name)) {
-            r->reasons[i].count++;
+            r->reasons[i].count += n;
             return;
         }
     if (r->n_reasons < MAX_REASONS) {
         cpy(r->reasons[r->n_reasons].name, MB_SLOG_NAME_LEN, name);
-        r->reasons[r->n_reasons++].count = 1;
+        r->reasons[r->n_reasons++].count = n;
     } else {
-        r->reasons_other++;
+        r->reasons_other += n;
     }
+}
+
+static void count_reason(mb_report *r, const char *name)
+{
+    count_reason_n(r, name, 1);
 }
 
 static gauge_acc *find_gauge(mb_report *r, const char *name)
@@ -433,6 +441,10 @@ static void add_part(mb_report *r, const mb_slog_record *rec)
             }
         }
         cpy(r->last_checksum, sizeof r->last_checksum, rec->model_checksum);
+        if (!r->first_checksum[0]) {
+            cpy(r->first_checksum, sizeof r->first_checksum, rec->model_checksum);
+            r->first_from_part = 1;
+        }
     }
 
     for (int i = 0; i < rec->n_reasons; i++) {
@@ -566,8 +578,12 @@ void mb_report_add_record(mb_report *r, const mb_slog_record *rec)
             snprintf(e->b, sizeof e->b, "%s (slot %d, %.80s)", rec->event,
                      rec->slot, rec->model_checksum);
         }
-        if (rec->model_checksum[0])
+        if (rec->model_checksum[0]) {
             cpy(r->last_checksum, sizeof r->last_checksum, rec->model_checksum);
+            if (!r->first_checksum[0])
+                cpy(r->first_checksum, sizeof r->first_checksum,
+                    rec->model_checksum);
+        }
         break;
     case MB_SLOG_SHIFT_START:
         if (r->n_shifts < MAX_SHIFTS)
@@ -618,6 +634,7 @@ int mb_report_add_file(mb_report *r, const char *path,
         return mb_err_set(err, MB_ENOMEM, "%s: more than %d log files", path,
                           MAX_FILES);
     file_info *fi = &r->files[r->n_files++];
+    memset(fi, 0, sizeof *fi);
     cpy(fi->path, sizeof fi->path, path);
     cpy(r->cur_shift, sizeof r->cur_shift, shift);
     r->cur_file = fi;
@@ -626,6 +643,235 @@ int mb_report_add_file(mb_report *r, const char *path,
                                err);
     r->cur_file = NULL;
     r->filter = NULL;
+    return rc;
+}
+
+/* ---- several files at once --------------------------------------------- */
+
+/* Combine two Welford accumulators (Chan, Golub, LeVeque, "Algorithms for
+   computing the sample variance", The American Statistician 37(3), 1983). */
+static void welford_merge(gauge_acc *a, const gauge_acc *b)
+{
+    if (b->n == 0)
+        return;
+    if (a->n == 0) {
+        a->n = b->n;
+        a->mean = b->mean;
+        a->m2 = b->m2;
+        return;
+    }
+    double n = (double)(a->n + b->n), d = b->mean - a->mean;
+    a->mean += d * (double)b->n / n;
+    a->m2 += b->m2 + d * d * (double)a->n * (double)b->n / n;
+    a->n += b->n;
+}
+
+/* Append the partial report s (one file, read after everything in r) to r. */
+static void merge(mb_report *r, const mb_report *s)
+{
+    long off = r->parts;
+    /* a change between files shows on the parts as a sequential read
+       would see it (a model record at the file's start says it itself) */
+    if (s->first_from_part && r->last_checksum[0] &&
+        strcmp(r->last_checksum, s->first_checksum)) {
+        r->model_changes++;
+        if (r->n_events < MAX_EVENTS) {
+            event *e = &r->events[r->n_events++];
+            memset(e, 0, sizeof *e);
+            e->kind = MB_SLOG_MODEL;
+            e->ordinal = off;
+            cpy(e->time, sizeof e->time, s->time_first);
+            cpy(e->a, sizeof e->a, "checksum changed between files");
+            snprintf(e->b, sizeof e->b, "%.60s -> %.60s", r->last_checksum,
+                     s->first_checksum);
+        } else {
+            r->events_dropped++;
+        }
+    }
+    if (s->last_checksum[0])
+        cpy(r->last_checksum, sizeof r->last_checksum, s->last_checksum);
+    if (!r->first_checksum[0])
+        cpy(r->first_checksum, sizeof r->first_checksum, s->first_checksum);
+
+    /* run charts: each of s's bins goes to r's bin of its first part */
+    long total = off + s->parts;
+    if (total > 0)
+        bins_make_room(r, total - 1);
+    for (int k = 0; k < N_SERIES; k++)
+        for (int b = 0; b < MB_REPORT_BINS; b++) {
+            const bin *x = &s->series[k][b];
+            if (x->n == 0)
+                continue;
+            bin *y = &r->series[k][(off + (long)b * s->binw) / r->binw];
+            if (y->n == 0) {
+                *y = *x;
+                continue;
+            }
+            y->min = fmin(y->min, x->min);
+            y->max = fmax(y->max, x->max);
+            y->sum += x->sum;
+            y->n += x->n;
+            if (x->rejects)
+                y->rej_val = x->rej_val;
+            y->rejects += x->rejects;
+        }
+    r->parts += s->parts;
+    r->passes += s->passes;
+    r->rejects += s->rejects;
+    r->faults += s->faults;
+    for (int i = 0; i < s->n_reasons; i++)
+        count_reason_n(r, s->reasons[i].name, s->reasons[i].count);
+    r->reasons_other += s->reasons_other;
+    for (int o = 0; o < MAX_OUTLINES; o++) {
+        for (int b = 0; b < MB_REPORT_ANGLE_BINS; b++)
+            r->located[o][b] += s->located[o][b];
+        for (int b = 0; b < POLAR_BINS; b++)
+            r->polar[o][b] += s->polar[o][b];
+    }
+    r->located_total += s->located_total;
+    for (int i = 0; i < s->n_gauges; i++) {
+        const gauge_acc *x = &s->gauges[i];
+        gauge_acc *g = find_gauge(r, x->name);
+        if (!g)
+            continue;
+        welford_merge(g, x);
+        g->out += x->out;
+        if (x->have_tol) {
+            if (g->have_tol && (g->nominal != x->nominal || g->lo != x->lo ||
+                                g->hi != x->hi))
+                g->tol_changed = 1;
+            g->have_tol = 1;
+            g->nominal = x->nominal;
+            g->lo = x->lo;
+            g->hi = x->hi;
+        }
+        g->tol_changed |= x->tol_changed;
+    }
+    r->gauges_dropped += s->gauges_dropped;
+    welford_merge(&r->t2, &s->t2);
+    welford_merge(&r->size, &s->size);
+    for (int i = 0; i < s->n_hours; i++) {
+        int h = hour_slot(r, s->hours[i].hour);
+        if (h >= 0) {
+            r->hours[h].parts += s->hours[i].parts;
+            r->hours[h].rejects += s->hours[i].rejects;
+        }
+    }
+    for (int i = 0; i < s->n_events; i++) {
+        if (r->n_events == MAX_EVENTS) {
+            r->events_dropped += s->n_events - i;
+            break;
+        }
+        r->events[r->n_events] = s->events[i];
+        r->events[r->n_events++].ordinal += off;
+    }
+    r->events_dropped += s->events_dropped;
+    r->fault_events += s->fault_events;
+    r->drift_signals += s->drift_signals;
+    r->model_changes += s->model_changes;
+    for (int i = 0; i < s->n_files && r->n_files < MAX_FILES; i++)
+        r->files[r->n_files++] = s->files[i];
+    r->files_skipped += s->files_skipped;
+    for (int i = 0; i < s->n_shifts && r->n_shifts < MAX_SHIFTS; i++)
+        memcpy(r->shifts[r->n_shifts++], s->shifts[i], sizeof r->shifts[0]);
+    for (int i = 0; i < s->n_thumbs && r->n_thumbs < MB_REPORT_THUMBS; i++)
+        r->thumbs[r->n_thumbs++] = s->thumbs[i];
+    r->rejects_with_image += s->rejects_with_image;
+    if (isfinite(s->t_first) &&
+        (!isfinite(r->t_first) || s->t_first < r->t_first)) {
+        r->t_first = s->t_first;
+        cpy(r->time_first, sizeof r->time_first, s->time_first);
+    }
+    if (isfinite(s->t_last) && (!isfinite(r->t_last) || s->t_last > r->t_last)) {
+        r->t_last = s->t_last;
+        cpy(r->time_last, sizeof r->time_last, s->time_last);
+    }
+}
+
+typedef struct {
+    mb_report *part;
+    const char *path;
+    const mb_report_filter *filter;
+    int rc;
+    char err[MB_ERR_LEN];
+} file_job;
+
+static void *file_worker(void *arg)
+{
+    file_job *j = arg;
+    j->rc = mb_report_add_file(j->part, j->path, j->filter, j->err);
+    return NULL;
+}
+
+int mb_report_add_files(mb_report *r, char *const *paths, int n,
+                        const mb_report_filter *f, int threads, char *err)
+{
+    if (threads > MB_REPORT_MAX_THREADS)
+        threads = MB_REPORT_MAX_THREADS;
+    if (threads <= 1 || r->csv || n <= 1) {
+        for (int i = 0; i < n; i++) {
+            int rc = mb_report_add_file(r, paths[i], f, err);
+            if (rc < 0)
+                return rc;
+        }
+        return 0;
+    }
+    file_job jobs[MB_REPORT_MAX_THREADS];
+    pthread_t tid[MB_REPORT_MAX_THREADS];
+    memset(jobs, 0, sizeof jobs);
+    int rc = 0;
+    for (int k = 0; k < threads; k++)
+        if (mb_report_open(&jobs[k].part)) {
+            rc = mb_err_set(err, MB_ENOMEM, "out of memory for the report");
+            goto out;
+        }
+    for (int i = 0; i < n && !rc; i += threads) {
+        int m = n - i < threads ? n - i : threads;
+        int started[MB_REPORT_MAX_THREADS] = {0};
+        for (int k = 0; k < m; k++) {
+            jobs[k].path = paths[i + k];
+            jobs[k].filter = f;
+            jobs[k].rc = 0;
+            if (k > 0 && pthread_create(&tid[k], NULL, file_worker, &jobs[k]) == 0)
+                started[k] = 1;
+        }
+        /* this thread reads the first file of the batch, and any file a
+           thread could not be started for */
+        for (int k = 0; k < m; k++)
+            if (!started[k])
+                file_worker(&jobs[k]);
+        for (int k = 1; k < m; k++)
+            if (started[k])
+                pthread_join(tid[k], NULL);
+        for (int k = 0; k < m; k++) {
+            if (jobs[k].rc < 0 && !rc) {
+                rc = jobs[k].rc;
+                if (err)
+                    snprintf(err, MB_ERR_LEN, "%s", jobs[k].err);
+            }
+            if (!rc)
+                merge(r, jobs[k].part);
+            /* empty the partial for the next batch, keep its buffers */
+            mb_report *p = jobs[k].part;
+            bin (*series)[MB_REPORT_BINS] = p->series;
+            event *events = p->events;
+            file_info *files = p->files;
+            hour_count *hours = p->hours;
+            int cap_hours = p->cap_hours;
+            memset(series, 0, N_SERIES * sizeof *series);
+            memset(p, 0, sizeof *p);
+            p->series = series;
+            p->events = events;
+            p->files = files;
+            p->hours = hours;
+            p->cap_hours = cap_hours;
+            p->binw = 1;
+            p->t_first = p->t_last = NAN;
+        }
+    }
+out:
+    for (int k = 0; k < threads; k++)
+        mb_report_close(jobs[k].part);
     return rc;
 }
 

@@ -88,6 +88,22 @@ void mb_report_set_csv(mb_report *r, FILE *csv);
 int mb_report_add_file(mb_report *r, const char *path,
                        const mb_report_filter *f, char *err);
 
+/** Most threads mb_report_add_files uses. */
+#define MB_REPORT_MAX_THREADS 8
+
+/**
+ * Read the files in order, `threads` at a time (each into a partial
+ * report, merged in file order: counts, Pareto, bins, hours and events as
+ * a sequential read gives them; mean and sd combined by Chan et al.'s
+ * pairwise update, equal to the sequential figures to rounding). With one
+ * thread, or when CSV rows are being written (they must come in order),
+ * the files are read one after the other on the calling thread.
+ * Return value: 0; the first file's error (MB_ENOTFOUND, MB_EIO,
+ * MB_ENOMEM).
+ */
+int mb_report_add_files(mb_report *r, char *const *paths, int n,
+                        const mb_report_filter *f, int threads, char *err);
+
 /** Add one record (what add_file does per line; for tests). */
 void mb_report_add_record(mb_report *r, const mb_slog_record *rec);
 

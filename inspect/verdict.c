@@ -339,13 +339,14 @@ static void refit_curve(mb_inspector *ins, const mb_asm_result *res,
  *     delta_i = (recon_i - model_i) . n_i, interpolated linearly;
  *   - its limit is the landmarks' local limits interpolated linearly, plus
  *     a corner allowance: the model outline between landmarks is a cubic
- *     through them (fit/asm.h), exact to a hundredth of a px on arcs, but
- *     at a sharp corner (a cut end, a lip tip) it rounds the corner in its
- *     own way, by up to about L theta / 8 for a chord of L px turning by
- *     theta radians at its ends; the allowance is CORNER_RELAX L theta with
- *     theta the larger turn at i and j, counted only beyond CORNER_FREE
- *     radians, so the smooth arcs and straight sides keep their limits
- *     (16 landmarks round a bolt hole turn by 0.39 rad each);
+ *     through them (fit/asm.h), within 0.004 px of an arc (5 px chords on
+ *     a 16 px hole), but at a sharp corner (a cut end, a lip tip) it
+ *     rounds the corner in its own way, by up to about L theta / 8 for a
+ *     chord of L px turning by theta radians at its ends; the allowance
+ *     is CORNER_RELAX L (theta - CORNER_FREE), theta the larger turn at i
+ *     and j, only where theta > CORNER_FREE, so the smooth arcs and
+ *     straight sides keep their limits (16 landmarks round a bolt hole
+ *     turn by 0.39 rad each);
  *   - where theta exceeds CORNER_SKIP (a corner of 30 degrees and more:
  *     the cut end of a hose, a lip seal's tip) the normals between the
  *     landmarks are ill-defined (they sweep through the corner and may run

@@ -11,9 +11,10 @@ frames go through OpenCV:
     for OpenCV's own dot centres;
   - cv2.calibrateCamera on OpenCV's centres and on ours (the same model
     family: focal length and principal point held at the truth, because
-    frames of one plane cannot determine them (Zhang, IEEE PAMI 22(11),
-    2000, section 3.3: one plane orientation leaves the focal length
-    free); k1, k2, p1, p2 and a pose per frame estimated);
+    frames of one nearly fronto-parallel plane determine them poorly:
+    Zhang, IEEE PAMI 22(11), 2000, section 3.3 - from memory - shows that
+    a plane parallel to an earlier one adds no constraint; k1, k2, p1, p2
+    and a pose per frame estimated);
   - cv2.findHomography on our centres of the first frame (no distortion).
 For each: reprojection RMS (OpenCV's definition: sqrt(sum |e|^2 / points),
 the same as ours) and the local scale (mm per px) at the frame centre and

@@ -271,11 +271,27 @@ static void test_round_trips(void **state)
     assert_true(worst_d < 1e-9);
     assert_true(worst_mm < 1e-6);
     assert_true(worst_s < 1e-7);
+    /* Strong barrel distortion, k1 = -0.12: r (1 - 0.12 r^2) peaks at
+       1.11 (r = 1.67), beyond the frame corners (1.0), so the model is
+       valid; a pixel at 1.2 radii from the centre has no physical
+       undistorted position (only the mirrored one beyond the fold) and
+       must be refused, not answered. */
+    mb_calib b = model(-0.12, 0.0, 0.0, 0.0);
+    assert_int_equal(mb_calib_validate(&b, NULL), 0);
+    double xu, yu, X, Y, x2, y2;
+    assert_int_equal(mb_calib_undistort(&b, 0.0, 0.0, &xu, &yu), 0);
+    assert_int_equal(mb_calib_px_to_mm(&b, 0.0, 0.0, &X, &Y), 0);
+    assert_int_equal(mb_calib_mm_to_px(&b, X, Y, &x2, &y2), 0);
+    assert_true(hypot(x2, y2) < 1e-6);
+    assert_int_equal(
+        mb_calib_undistort(&b, b.cx + 1.2 * b.radius, b.cy, &xu, &yu),
+        MB_ENOCONV);
+    b.k1 = -0.15; /* peaks at 0.994: the corners have no undistorted place */
+    assert_int_equal(mb_calib_validate(&b, NULL), MB_ERANGE);
     /* Batch conversion equals the single one. */
     double px[6] = {10, 20, 400, 300, 790, 590}, mm[6];
     assert_int_equal(mb_calib_points_to_mm(&c, 3, px, mm), 0);
     for (int i = 0; i < 3; i++) {
-        double X, Y;
         mb_calib_px_to_mm(&c, px[2 * i], px[2 * i + 1], &X, &Y);
         assert_true(X == mm[2 * i] && Y == mm[2 * i + 1]);
     }

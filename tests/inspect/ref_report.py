@@ -43,6 +43,11 @@ def main():
     res = subprocess.run([modeband, "report", "--logs", logs, "--csv", out_csv],
                          check=True, capture_output=True, text=True)
     text = res.stdout
+    # the files read two at a time (partial reports merged) say the same
+    res2 = subprocess.run([modeband, "report", "--logs", logs, "--threads", "2"],
+                          check=True, capture_output=True, text=True)
+    strip = lambda t: [l for l in t.splitlines() if not l.startswith("CSV:")]
+    check(strip(res2.stdout) == strip(text), "--threads 2 summary differs from the sequential one")
     rows = list(csv.DictReader(open(out_csv)))
     check(len(rows) == 12000, "CSV has %d rows, expected 12000" % len(rows))
 
