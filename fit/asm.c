@@ -32,6 +32,8 @@
  */
 #include "asm.h"
 
+#include "stats.h"
+
 #include "error.h"
 
 #include <cblas.h>
@@ -424,34 +426,10 @@ static int search_level(mb_asm *a, const mb_pyramid *pyr, int level,
     return 0;
 }
 
-/* k-th smallest of v[0..n-1] (reorders v); Hoare's selection. */
+/* k-th smallest of v[0..n-1] (reorders v). */
 static double select_kth(double *v, int n, int kth)
 {
-    int lo = 0, hi = n - 1;
-    while (lo < hi) {
-        double pivot = v[(lo + hi) / 2];
-        int i = lo, j = hi;
-        while (i <= j) {
-            while (v[i] < pivot)
-                i++;
-            while (v[j] > pivot)
-                j--;
-            if (i <= j) {
-                double t = v[i];
-                v[i] = v[j];
-                v[j] = t;
-                i++;
-                j--;
-            }
-        }
-        if (kth <= j)
-            hi = j;
-        else if (kth >= i)
-            lo = i;
-        else
-            break;
-    }
-    return v[kth];
+    return mb_stats_select_kth(v, n, kth);
 }
 
 /* Tangential offset (px) of the two side lines averaged with the normal

@@ -52,6 +52,8 @@
  */
 #include "outline.h"
 
+#include "stats.h"
+
 #include "error.h"
 
 #include <math.h>
@@ -927,33 +929,7 @@ static void measure_trace(mb_outliner *o, int i)
 /* Median of v[0..n-1] by quickselect (reorders v); 0 for n == 0. */
 static double median(double *v, int n)
 {
-    if (n <= 0)
-        return 0;
-    int k = n / 2, lo = 0, hi = n - 1;
-    while (lo < hi) {
-        double pivot = v[(lo + hi) / 2];
-        int i = lo, j = hi;
-        while (i <= j) {
-            while (v[i] < pivot)
-                i++;
-            while (v[j] > pivot)
-                j--;
-            if (i <= j) {
-                double t = v[i];
-                v[i] = v[j];
-                v[j] = t;
-                i++;
-                j--;
-            }
-        }
-        if (k <= j)
-            hi = j;
-        else if (k >= i)
-            lo = i;
-        else
-            break;
-    }
-    return v[k];
+    return mb_stats_median_inplace(v, n);
 }
 
 /* Resample every trace with o->layout and measure each point (rule 6);

@@ -863,3 +863,37 @@ int mb_stats_q_limit_box(const double *eig, int n_eig, int k, double alpha,
     out->q = g * mb_stats_chi2_quantile_upper(alpha, h);
     return isfinite(out->q) ? 0 : MB_ENUMERIC;
 }
+
+double mb_stats_select_kth(double *v, int n, int kth)
+{
+    int lo = 0, hi = n - 1;
+    while (lo < hi) {
+        double pivot = v[(lo + hi) / 2];
+        int i = lo, j = hi;
+        while (i <= j) {
+            while (v[i] < pivot)
+                i++;
+            while (v[j] > pivot)
+                j--;
+            if (i <= j) {
+                double t = v[i];
+                v[i] = v[j];
+                v[j] = t;
+                i++;
+                j--;
+            }
+        }
+        if (kth <= j)
+            hi = j;
+        else if (kth >= i)
+            lo = i;
+        else
+            break;
+    }
+    return v[kth];
+}
+
+double mb_stats_median_inplace(double *v, int n)
+{
+    return n > 0 ? mb_stats_select_kth(v, n, n / 2) : 0.0;
+}

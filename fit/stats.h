@@ -162,4 +162,16 @@ int mb_stats_q_limit_jm(const double *eig, int n_eig, int k, double alpha,
 int mb_stats_q_limit_box(const double *eig, int n_eig, int k, double alpha,
                          mb_q_limit *out);
 
+/* ---- order statistics ------------------------------------------------- */
+
+/**
+ * The k-th smallest (0-based) of v[0..n-1] by Hoare's selection (average
+ * O(n)); reorders v. 0 < n, 0 <= k < n (not checked: inner-loop call).
+ */
+double mb_stats_select_kth(double *v, int n, int k);
+
+/** The median v[n / 2] in sorted order (upper median for even n), by
+    mb_stats_select_kth; 0 for n <= 0. Reorders v. */
+double mb_stats_median_inplace(double *v, int n);
+
 #endif

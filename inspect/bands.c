@@ -13,6 +13,7 @@
 
 #include "error.h"
 #include "procrustes.h"
+#include "profile.h"
 #include "stats.h"
 
 #include <math.h>
@@ -41,38 +42,6 @@ void mb_bands_scores_free(mb_bands_scores *s)
     free(s->fails);
     free(s->outlier);
     memset(s, 0, sizeof *s);
-}
-
-void mb_bands_normals(const mb_layout *layout, const double *xy, double *nrm)
-{
-    int first = 0;
-    for (int o = 0; o < layout->n_outlines; o++) {
-        int c = layout->counts[o];
-        const double *p = xy + 2 * first;
-        double area2 = 0.0; /* twice the shoelace area */
-        for (int j = 0; j < c; j++) {
-            int jn = (j + 1) % c;
-            area2 += p[2 * j] * p[2 * jn + 1] - p[2 * jn] * p[2 * j + 1];
-        }
-        /* (ty, -tx) points out of a polygon of positive shoelace area;
-           holes get the opposite: away from the material is into the hole. */
-        double sgn = area2 >= 0.0 ? 1.0 : -1.0;
-        if (o > 0)
-            sgn = -sgn;
-        for (int j = 0; j < c; j++) {
-            int jp = (j + c - 1) % c, jn = (j + 1) % c;
-            double tx = p[2 * jn] - p[2 * jp], ty = p[2 * jn + 1] - p[2 * jp + 1];
-            double len = sqrt(tx * tx + ty * ty);
-            double *n = nrm + 2 * (first + j);
-            if (len > 0.0) {
-                n[0] = sgn * ty / len;
-                n[1] = -sgn * tx / len;
-            } else {
-                n[0] = n[1] = 0.0;
-            }
-        }
-        first += c;
-    }
 }
 
 /* Everything the limits are derived from: leave-one-out scores. */
@@ -328,7 +297,9 @@ static int score_all(const double *shapes, int ld, loo_scores *s, char *err)
         s->t2[i] = t2;
         s->spe[i] = spe;
         /* residual per landmark along the normal, back in px */
-        mb_bands_normals(s->layout, pca.mean, nrm);
+        /* normals from the part into the background (fit/profile.h), the
+           sign the search and the verdict use: + = material added */
+        mb_profile_normals(s->layout, pca.mean, nrm);
         double px = 1.0 / (pose.scale * tscale);
         for (int j = 0; j < n; j++) {
             double v = (y[2 * j] * nrm[2 * j] + y[2 * j + 1] * nrm[2 * j + 1]) * px;

@@ -90,13 +90,6 @@ int mb_bands_learn(const double *shapes, int ld, const mb_layout *layout,
 void mb_bands_scores_free(mb_bands_scores *s);
 
 /**
- * Outward unit normals (x, y per landmark) of a shape: away from the
- * material, i.e. out of the outer edge and into each hole, from the
- * neighbours on the same closed outline and the outline's signed area.
- */
-void mb_bands_normals(const mb_layout *layout, const double *xy, double *nrm);
-
-/**
  * How many good parts would bring the T^2 limit within `within` (e.g. 1.25)
  * of the limit with unlimited parts (chi-square), for k modes at alpha.
  * Returns m itself when it already is, or 0 when none up to 2000 does.
