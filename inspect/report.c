@@ -1766,8 +1766,13 @@ int mb_report_write_html(const mb_report *r, const char *path,
         for (int i = 0; i < r->n_thumbs; i++) {
             const thumb *th = &r->thumbs[i];
             char p[4096];
-            snprintf(p, sizeof p, "%s/%s", image_root ? image_root : ".",
-                     th->image);
+            /* absolute paths as logged; relative ones from the log
+               folder's parent (io/shiftlog_format.h) */
+            if (th->image[0] == '/')
+                snprintf(p, sizeof p, "%s", th->image);
+            else
+                snprintf(p, sizeof p, "%s/%s", image_root ? image_root : ".",
+                         th->image);
             fputs("<div class=\"thumb\">", f);
             if (thumb_img(f, p)) {
                 fputs("<i>image not readable: ", f);

@@ -11,6 +11,7 @@
 #define _GNU_SOURCE
 #include "station.h"
 
+#include "calib_file.h"
 #include "drift.h"
 #include "error.h"
 #include "file_util.h"
@@ -87,6 +88,7 @@ typedef struct {
     int loaded;
     mb_inspector *ins;
     char error[MB_ERR_LEN];
+    double mm_per_px; /* the scale sizes are judged in (0: px) */
     int n_charts;
     drift_slot charts[MAX_CHARTS];
 } slot_rt;
@@ -191,9 +193,13 @@ static void init_charts(slot_rt *s, const mb_station_config *cfg)
     dc.clear_after = cfg->drift_clear_after;
     s->n_charts = 0;
     const mb_part_model *pm = &s->pm;
+    /* the size chart in mm when the part has a scale (as the log's
+       size_mm), else in px */
+    double u = s->mm_per_px > 0 ? s->mm_per_px : 1.0;
     if (pm->has_limits && pm->limits.size_sd > 0) {
         drift_slot *d = &s->charts[s->n_charts];
-        if (mb_drift_init(&d->chart, &dc, pm->limits.size_mean, pm->limits.size_sd) == 0) {
+        if (mb_drift_init(&d->chart, &dc, pm->limits.size_mean * u,
+                          pm->limits.size_sd * u) == 0) {
             snprintf(d->name, sizeof d->name, "size");
             d->kind = 0;
             s->n_charts++;
@@ -253,11 +259,23 @@ static int load_slots(const mb_station_config *cfg, slot_rt **out)
         mb_inspect_params ip;
         mb_inspect_params_default(&ip);
         ip.mm_per_px = cs->mm_per_px;
+        mb_calib cal; /* copied by the inspector */
+        if (cs->calibration[0]) {
+            if (mb_calib_file_load_for(cs->calibration, r->pm.imaging.width,
+                                       r->pm.imaging.height, &cal, err) < 0) {
+                snprintf(r->error, sizeof r->error, "slot %d: %.400s", cs->slot, err);
+                failed++;
+                continue;
+            }
+            ip.calib = &cal;
+            ip.mm_per_px = 0; /* the calibration's */
+        }
         if (mb_inspector_create(&r->pm, &ip, &r->ins, err) < 0) {
             snprintf(r->error, sizeof r->error, "%.200s: %.300s", cs->model, err);
             failed++;
             continue;
         }
+        r->mm_per_px = cs->mm_per_px > 0 ? cs->mm_per_px : r->pm.imaging.mm_per_px;
         init_charts(r, cfg);
     }
     *out = s;
@@ -377,7 +395,7 @@ static void update_drift(mb_station *st, slot_rt *s, const mb_verdict *v,
         drift_slot *d = &s->charts[i];
         double x;
         if (d->kind == 0)
-            x = v->size_px;
+            x = v->size_mm > 0 ? v->size_mm : v->size_px;
         else if (d->kind == 1)
             x = v->b_sd[d->index];
         else if (d->index < v->n_gauges && isfinite(v->gauges[d->index].value))
