@@ -3,6 +3,7 @@
  * taught model and say why, one line (or one JSON object) per image, in
  * the order given.
  */
+#include "calib_file.h"
 #include "cli.h"
 #include "commands.h"
 #include "error.h"
@@ -21,7 +22,8 @@
 #include <time.h>
 
 static const char *const inspect_help =
-    "usage: modeband inspect --model MODEL [--mm-per-px F] [--json]\n"
+    "usage: modeband inspect --model MODEL [--mm-per-px F | --calib CAL.json]\n"
+    "                        [--json]\n"
     "                        [--overlay DIR] IMAGE...\n"
     "\n"
     "Inspect each image (PGM or PNG) against the taught model: find the part,\n"
@@ -31,6 +33,10 @@ static const char *const inspect_help =
     "\n"
     "  --model MODEL   a model taught from images (modeband teach --images)\n"
     "  --mm-per-px F   scale for sizes and gauges (default: the model's)\n"
+    "  --calib CAL.json  a calibration (modeband calibrate) for the model's\n"
+    "                  frame size: gauges are measured on the conveyor plane\n"
+    "                  in mm through it (perspective and lens distortion\n"
+    "                  removed), sizes at the part's local scale\n"
     "  --json          one JSON object per image per line, with the keys\n"
     "                  image, verdict, reasons, pose, modes, t2, residual,\n"
     "                  outlines, gauges, ms\n"
@@ -203,7 +209,7 @@ static void fault_unreadable(const char *image, const char *why, int json)
 
 int mb_cmd_inspect(int argc, char **argv)
 {
-    const char *model = NULL, *overlay = NULL;
+    const char *model = NULL, *overlay = NULL, *calib = NULL;
     double mm = 0.0;
     int json = 0, help = 0, npos = 0, seen_mm = 0;
     char err[MB_ERR_LEN];
@@ -215,6 +221,7 @@ int mb_cmd_inspect(int argc, char **argv)
         {"mm-per-px", MB_OPT_DOUBLE, &mm, &seen_mm},
         {"json", MB_OPT_FLAG, &json, NULL},
         {"overlay", MB_OPT_STRING, &overlay, NULL},
+        {"calib", MB_OPT_STRING, &calib, NULL},
     };
     int status = MB_EXIT_OK;
     mb_part_model pm;
@@ -241,6 +248,10 @@ int mb_cmd_inspect(int argc, char **argv)
         status = mb_cli_usage_error("inspect", "--mm-per-px must be positive");
         goto done;
     }
+    if (seen_mm && calib) {
+        status = mb_cli_usage_error("inspect", "give --mm-per-px or --calib, not both");
+        goto done;
+    }
     if (mb_part_model_load(model, &pm, err) < 0) {
         status = mb_cli_fail("inspect", err);
         goto done;
@@ -248,6 +259,15 @@ int mb_cmd_inspect(int argc, char **argv)
     mb_inspect_params ip;
     mb_inspect_params_default(&ip);
     ip.mm_per_px = mm;
+    mb_calib cal;
+    if (calib) {
+        if (mb_calib_file_load_for(calib, pm.imaging.width, pm.imaging.height, &cal,
+                                   err) < 0) {
+            status = mb_cli_fail("inspect", err);
+            goto done;
+        }
+        ip.calib = &cal;
+    }
     char cerr[MB_ERR_LEN];
     if (mb_inspector_create(&pm, &ip, &ins, cerr) < 0) {
         snprintf(err, sizeof err, "%.200s: %.300s", model, cerr);

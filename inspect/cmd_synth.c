@@ -26,6 +26,7 @@ static const char *const synth_help =
     "                      [--size WxH] [--mm-per-px F] [--noise SIGMA]\n"
     "                      [--blur SIGMA] [--illumination F] [--variation F]\n"
     "                      [--start I] [--format pgm|png] [--drift F]\n"
+    "                      [--reimage K]\n"
     "\n"
     "Write frames of the synthetic production line and their ground truth.\n"
     "Every frame is a pure function of the options and its part index, so the\n"
@@ -58,6 +59,11 @@ static const char *const synth_help =
     "  --format F         pgm (default) or png\n"
     "  --drift F          slow drift of the line: part I is scaled by\n"
     "                     1 + F * I (held at +-5 %; |F| <= 0.001; default 0)\n"
+    "  --reimage K        image each of the --count parts K times (1..1000),\n"
+    "                     re-placed at a new pose with new sensor noise each\n"
+    "                     time, for a repeatability study (modeband\n"
+    "                     repeatability); files NAME_PPPP_SS.pgm (part PPPP,\n"
+    "                     shot SS, both from 1)\n"
     "\n"
     "Writes DIR/NAME_0001.pgm ... and DIR/labels.jsonl: one JSON object per\n"
     "frame with the image name, family, good or defect type with its size in\n"
@@ -124,7 +130,7 @@ int mb_cmd_synth(int argc, char **argv)
 {
     const char *family = NULL, *out = NULL, *lighting = "back", *seed_s = NULL;
     const char *size = NULL, *format = "pgm", *defects = NULL;
-    int count = 20, start = 0, help = 0, npos = 0;
+    int count = 20, start = 0, help = 0, npos = 0, reimage = 0, seen_reimage = 0;
     double rate = 0, mm_per_px = 0.1, noise = 2, blur = 1, illum = 0.12,
            variation = 1, drift = 0;
     char err[MB_ERR_LEN];
@@ -145,6 +151,7 @@ int mb_cmd_synth(int argc, char **argv)
         {"drift", MB_OPT_DOUBLE, &drift, NULL},
         {"start", MB_OPT_INT, &start, NULL},
         {"format", MB_OPT_STRING, &format, NULL},
+        {"reimage", MB_OPT_INT, &reimage, &seen_reimage},
     };
     if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], NULL, 0,
                      &npos, &help, err) < 0)
@@ -178,6 +185,11 @@ int mb_cmd_synth(int argc, char **argv)
         return mb_cli_usage_error("synth", "--format expects pgm or png");
     if (count < 1 || count > 1000000)
         return mb_cli_usage_error("synth", "--count expects 1..1000000");
+    if (seen_reimage && (reimage < 1 || reimage > 1000))
+        return mb_cli_usage_error("synth", "--reimage expects 1..1000");
+    int shots = seen_reimage ? reimage : 1;
+    if ((long long)count * shots > 1000000)
+        return mb_cli_usage_error("synth", "--count times --reimage is over 1000000 frames");
     if (start < 0)
         return mb_cli_usage_error("synth",
                                   "--start expects a whole number >= 0");
@@ -233,10 +245,11 @@ int mb_cmd_synth(int argc, char **argv)
         mb_cli_fail("synth", err);
         goto done;
     }
-    for (int i = 0; i < count; i++) {
+    for (int f = 0; f < count * shots; f++) {
+        int i = f / shots, shot = f % shots;
         uint64_t index = (uint64_t)start + (uint64_t)i;
         mb_synth_truth truth;
-        rc = mb_synth_make(gen, index, 0, MB_SYNTH_DRAW, &frame, &truth);
+        rc = mb_synth_make(gen, index, shot, MB_SYNTH_DRAW, &frame, &truth);
         if (rc < 0) {
             snprintf(err, sizeof err, "part %" PRIu64 " could not be made: %s",
                      index, mb_strerror(rc));
@@ -244,8 +257,12 @@ int mb_cmd_synth(int argc, char **argv)
             goto done;
         }
         char name[64];
-        snprintf(name, sizeof name, "%s_%04" PRIu64 ".%s", family, index + 1,
-                 png ? "png" : "pgm");
+        if (seen_reimage)
+            snprintf(name, sizeof name, "%s_%04" PRIu64 "_%02d.%s", family,
+                     index + 1, shot + 1, png ? "png" : "pgm");
+        else
+            snprintf(name, sizeof name, "%s_%04" PRIu64 ".%s", family, index + 1,
+                     png ? "png" : "pgm");
         snprintf(path, plen, "%s/%s", out, name);
         rc = png ? mb_image_save_png(path, &frame, err)
                  : mb_image_save_pgm(path, &frame, err);
@@ -263,7 +280,8 @@ int mb_cmd_synth(int argc, char **argv)
     }
     printf("wrote %d %s frame%s (%s, %dx%d px, %g mm/px, %s-lit) and "
            "labels.jsonl to %s\n",
-           count, family, count == 1 ? "" : "s", mb_synth_part_number(fam),
+           count * shots, family, count * shots == 1 ? "" : "s",
+           mb_synth_part_number(fam),
            cfg.width, cfg.height, cfg.mm_per_px, mb_synth_lighting_name(light),
            out);
     printf("good: %d", per_type[MB_SYNTH_NONE]);

@@ -9,6 +9,7 @@
  * part will be judged by.
  */
 #include "bands.h"
+#include "calib_file.h"
 #include "cli.h"
 #include "gauges.h"
 #include "commands.h"
@@ -34,7 +35,7 @@ static const char *const teach_help =
     "usage: modeband teach --images DIR --out MODEL [--mm-per-px F]\n"
     "                      [--variance F | --modes K] [--points N]\n"
     "                      [--alpha F] [--keep-outliers] [--name TEXT]\n"
-    "                      [--gauges FILE]\n"
+    "                      [--gauges FILE] [--calib CAL.json]\n"
     "                      [--report FILE]\n"
     "       modeband teach --points DIR --out MODEL [--variance F | --modes K]\n"
     "                      [--source TEXT] [--report FILE]\n"
@@ -47,13 +48,18 @@ static const char *const teach_help =
     "                  20 or more advised. Images that cannot be used are\n"
     "                  listed with the reason.\n"
     "  --mm-per-px F   scale of the images, to report sizes in mm\n"
+    "  --calib CAL.json  a calibration (modeband calibrate) for the images'\n"
+    "                  frame size, instead of --mm-per-px: gauges are measured\n"
+    "                  on the conveyor plane in mm through it; the model keeps\n"
+    "                  its scale at the frame centre as its mm per px\n"
     "  --points N      with --images: landmarks over all outlines (default\n"
     "                  256; --landmarks N is the same)\n"
     "  --alpha F       false-reject target per good part (default 0.002)\n"
     "  --keep-outliers keep training parts that look unusual (default: they\n"
     "                  are listed and left out)\n"
     "  --name TEXT     part name stored in the model (default: the folder)\n"
-    "  --gauges FILE   drawing gauges to check, in mm (needs --mm-per-px):\n"
+    "  --gauges FILE   drawing gauges to check, in mm (needs --mm-per-px or\n"
+    "                  --calib):\n"
     "                  {\"format\":\"modeband-gauges\",\"version\":1,\"gauges\":\n"
     "                  [{\"name\",\"kind\",\"outline\",\"nominal_mm\",\n"
     "                  \"tol_lo_mm\",\"tol_hi_mm\"}]}; kinds: diameter,\n"
@@ -449,9 +455,10 @@ static int teach_from_images(const char *dir, const char *out,
         printf(" (to explain %.1f %% of the shape variance)\n", 100.0 * tp->variance);
     print_modes(sm);
     print_limits(&pm.limits, log.n_used, k);
-    if (tp->mm_per_px > 0)
+    if (pm.imaging.mm_per_px > 0)
         printf("  size band in mm (RMS radius): %.3f .. %.3f mm\n",
-               pm.limits.size_lo * tp->mm_per_px, pm.limits.size_hi * tp->mm_per_px);
+               pm.limits.size_lo * pm.imaging.mm_per_px,
+               pm.limits.size_hi * pm.imaging.mm_per_px);
     for (int g = 0; g < pm.n_gauges; g++) {
         const mb_gauge_def *gd = &pm.gauges[g];
         double lo = gd->nominal + gd->tol_lo, hi = gd->nominal + gd->tol_hi;
@@ -486,7 +493,7 @@ static int teach_from_images(const char *dir, const char *out,
 int mb_cmd_teach(int argc, char **argv)
 {
     const char *points = NULL, *images = NULL, *out = NULL, *source = NULL,
-               *report = NULL, *name = NULL, *gauges = NULL;
+               *report = NULL, *name = NULL, *gauges = NULL, *calib = NULL;
     double variance = 0.98, mm_per_px = 0.0, alpha = 0.002;
     int modes = 0, seen_var = 0, seen_modes = 0, help = 0, npos = 0;
     int budget = 256, keep = 0, seen_mm = 0;
@@ -506,6 +513,7 @@ int mb_cmd_teach(int argc, char **argv)
         {"keep-outliers", MB_OPT_FLAG, &keep, NULL},
         {"name", MB_OPT_STRING, &name, NULL},
         {"gauges", MB_OPT_STRING, &gauges, NULL},
+        {"calib", MB_OPT_STRING, &calib, NULL},
     };
     if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], pos, 0,
                      &npos, &help, err) < 0)
@@ -536,6 +544,10 @@ int mb_cmd_teach(int argc, char **argv)
         return mb_cli_usage_error("teach", "--modes must be at least 1");
     if (seen_mm && !(mm_per_px > 0.0))
         return mb_cli_usage_error("teach", "--mm-per-px must be a positive number");
+    if (seen_mm && calib)
+        return mb_cli_usage_error("teach", "give --mm-per-px or --calib, not both");
+    if (calib && points)
+        return mb_cli_usage_error("teach", "--calib goes with --images");
     if (!(alpha > 0.0 && alpha < 0.5))
         return mb_cli_usage_error("teach", "--alpha must be between 0 and 0.5");
     if (budget < 16 || budget > 4096)
@@ -553,10 +565,18 @@ int mb_cmd_teach(int argc, char **argv)
     tp.bands.alpha = alpha;
     tp.name = name;
     tp.progress = isatty(STDERR_FILENO) ? stderr : NULL;
+    /* The frame size is checked against the images' once they are read. */
+    mb_calib cal;
+    if (calib) {
+        if (mb_calib_file_load(calib, &cal, err) < 0)
+            return mb_cli_fail("teach", err);
+        tp.calib = &cal;
+    }
     mb_gauge_def defs[MB_MAX_GAUGES];
     if (gauges) {
-        if (!(mm_per_px > 0))
-            return mb_cli_usage_error("teach", "--gauges needs --mm-per-px (gauges are in mm)");
+        if (!(mm_per_px > 0) && !calib)
+            return mb_cli_usage_error("teach", "--gauges needs --mm-per-px or --calib "
+                                               "(gauges are in mm)");
         if (mb_gauges_load(gauges, defs, &tp.n_gauges, err) < 0)
             return mb_cli_fail("teach", err);
         tp.gauges = defs;

@@ -21,6 +21,7 @@ int mb_cmd_run(int argc, char **argv);
 int mb_cmd_synth(int argc, char **argv);
 int mb_cmd_target(int argc, char **argv);
 int mb_cmd_calibrate(int argc, char **argv);
+int mb_cmd_repeatability(int argc, char **argv);
 int mb_cmd_plcsim(int argc, char **argv);
 int mb_cmd_report(int argc, char **argv);
 

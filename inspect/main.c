@@ -21,6 +21,7 @@ static const mb_command commands[] = {
     {"synth", mb_cmd_synth, "write frames of the synthetic production line"},
     {"target", mb_cmd_target, "write the printable calibration target (SVG)"},
     {"calibrate", mb_cmd_calibrate, "calibrate px to mm on the conveyor plane"},
+    {"repeatability", mb_cmd_repeatability, "repeatability study of the gauges (%GRR)"},
     {"plc-sim", mb_cmd_plcsim, "act as a PLC: trigger, read and acknowledge results"},
     {"report", mb_cmd_report, "summarise the shift logs (terminal, HTML, CSV)"},
 };
@@ -31,7 +32,7 @@ static void usage(FILE *f)
                "modeband inspects flexible parts against a model taught from "
                "good samples.\n\ncommands:\n");
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
-        fprintf(f, "  %-12s %s\n", commands[i].name, commands[i].summary);
+        fprintf(f, "  %-14s %s\n", commands[i].name, commands[i].summary);
     fprintf(f, "\n'modeband COMMAND --help' describes each command.\n"
                "Exit status: 0 done, 1 failure, 2 usage error.\n"
                "modeband is a quality-inspection tool, not a safety device.\n");

@@ -332,7 +332,8 @@ static int remeasure(mb_part_model *pm, const mb_teach_params *p,
     mb_inspector *ins = NULL;
     mb_inspect_params ip;
     mb_inspect_params_default(&ip);
-    ip.mm_per_px = p->mm_per_px;
+    ip.mm_per_px = pm->imaging.mm_per_px;
+    ip.calib = p->calib;
     if (!shapes || !keep) {
         rc = mb_err_set(err, MB_ENOMEM, "out of memory");
         goto done;
@@ -446,6 +447,18 @@ int mb_teach_images(const char *dir, const mb_teach_params *p,
     if ((rc = find_outlines(&files, p, &fp, &n, &w, &h, log, err)) < 0)
         goto fail;
     log->seconds[0] = now_s() - t0;
+    double mm_per_px = p->mm_per_px;
+    if (p->calib) {
+        mb_calib_scale sc;
+        if ((rc = mb_calib_check_frame(p->calib, w, h, err)) < 0)
+            goto fail;
+        if ((rc = mb_calib_local_scale(p->calib, (w - 1) / 2.0, (h - 1) / 2.0,
+                                       &sc)) < 0) {
+            mb_err_set(err, rc, "calibration: no scale at the frame centre");
+            goto fail;
+        }
+        mm_per_px = sc.mm_per_px;
+    }
 
     /* the part's polarity: the majority of the usable images */
     int dark = 0;
@@ -563,7 +576,7 @@ int mb_teach_images(const char *dir, const mb_teach_params *p,
 
     pm->imaging.width = w;
     pm->imaging.height = h;
-    pm->imaging.mm_per_px = p->mm_per_px;
+    pm->imaging.mm_per_px = mm_per_px;
     pm->imaging.dark_part = dark_part;
     if (p->n_gauges > 0) {
         int no = mb_shape_model_layout(pm->shape)->n_outlines;

@@ -10,6 +10,7 @@
 #include <stdio.h>
 
 #include "bands.h"
+#include "camera.h"
 #include "part_model.h"
 
 /** Fewest usable images teaching accepts. */
@@ -22,6 +23,11 @@ typedef struct {
     int modes;           /**< > 0: keep exactly this many instead */
     int points;          /**< landmark budget over all outlines; 256 */
     double mm_per_px;    /**< 0 = unknown */
+    /** NULL: none. Given (for the images' frame size, else teaching
+        fails with MB_ESIZE): gauges are measured through it on the plane
+        in mm, and the model keeps its local scale at the frame centre as
+        mm_per_px (mm_per_px above must then be 0). */
+    const mb_calib *calib;
     int keep_outliers;   /**< 1: keep training parts screened as outliers */
     mb_bands_params bands;
     const char *name;    /**< part name stored in the model; may be NULL */

@@ -11,6 +11,7 @@
 #include "verdict.h"
 
 #include "error.h"
+#include "beyond.h"
 #include "gauges.h"
 #include "procrustes.h"
 #include "pyramid.h"
@@ -39,6 +40,7 @@ struct mb_inspector {
     int *dstart;
     double mean_cx, mean_cy;  /* centroid of the mean shape (model frame) */
     double *mean_angle;       /* n: angle of each landmark on the part, deg */
+    mb_calib cal;             /* the calibration (p.calib points here) */
 };
 
 static const char *const reason_names[] = {
@@ -119,6 +121,19 @@ int mb_inspector_create(const mb_part_model *pm, const mb_inspect_params *p,
         ins->p = *p;
     else
         mb_inspect_params_default(&ins->p);
+    if (ins->p.calib) {
+        /* Copied, so the caller's need not outlive the inspector. */
+        ins->cal = *ins->p.calib;
+        ins->p.calib = &ins->cal;
+        if ((rc = mb_calib_check_frame(&ins->cal, pm->imaging.width,
+                                       pm->imaging.height, err)) < 0)
+            goto fail;
+        mb_calib_scale sc;
+        if (!(ins->p.mm_per_px > 0) &&
+            mb_calib_local_scale(&ins->cal, (pm->imaging.width - 1) / 2.0,
+                                 (pm->imaging.height - 1) / 2.0, &sc) == 0)
+            ins->p.mm_per_px = sc.mm_per_px;
+    }
     if (!(ins->p.mm_per_px > 0))
         ins->p.mm_per_px = pm->imaging.mm_per_px;
     ins->w = pm->imaging.width;
@@ -601,6 +616,49 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
     }
 }
 
+/* Material beyond the edge (inspect/beyond.h): reported as flash, unless a
+   local-deviation reason already names the same place. */
+static void judge_beyond(mb_inspector *ins, const mb_image *frame,
+                         const mb_asm_result *res, mb_verdict *v)
+{
+    const mb_profile_stats *st = mb_profile_model_stats(ins->pm->profiles);
+    mb_beyond b;
+    mb_beyond_check(frame, res, st->part_grey, st->back_grey, 2, &b);
+    if (!b.found)
+        return;
+    double x = res->dense_xy[2 * b.worst], y = res->dense_xy[2 * b.worst + 1];
+    for (int i = 0; i < v->n_reasons; i++) {
+        const mb_reason *r = &v->reasons[i];
+        if ((r->code == MB_REASON_FLASH || r->code == MB_REASON_GAP ||
+             r->code == MB_REASON_DEFORM) && hypot(r->x - x, r->y - y) < 10.0)
+            return;
+    }
+    const mb_layout *l = mb_shape_model_layout(ins->pm->shape);
+    int lm = res->dense_seg[b.worst], o = 0, first = 0;
+    while (o < l->n_outlines - 1 && lm >= first + l->counts[o])
+        first += l->counts[o++];
+    double mm = ins->p.mm_per_px > 0 ? ins->p.mm_per_px : 1.0;
+    const char *unit = ins->p.mm_per_px > 0 ? "mm" : "px";
+    double ext = b.len * res->dense_spacing * mm;
+    mb_reason *r = add_reason(v, MB_REASON_FLASH, ext, 0);
+    if (!r)
+        return;
+    char oname[32];
+    outline_name(o, oname, sizeof oname);
+    r->outline = o;
+    r->position = (lm - first + res->dense_frac[b.worst]) / l->counts[o];
+    r->angle_deg = ins->mean_angle[lm];
+    r->x = x;
+    r->y = y;
+    r->extent_mm = ext;
+    r->depth_mm = 3.0 * mm;
+    r->depth_px = 3.0;
+    snprintf(r->text, sizeof r->text,
+             "material beyond %s at %.0f deg (%.0f %% along) over %.2f %s: "
+             "contamination or flash touching the part", oname, r->angle_deg,
+             100.0 * r->position, ext, unit);
+}
+
 static void fault(mb_verdict *v, mb_reason_code c, const char *text)
 {
     v->verdict = MB_VERDICT_FAULT;
@@ -739,6 +797,11 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
               (res.measured_xy[2 * j + 1] - cy) * (res.measured_xy[2 * j + 1] - cy);
     v->size_px = sqrt(r2 / n);
     v->size_mm = mm > 0 ? v->size_px * mm : 0.0;
+    if (ins->p.calib) {
+        mb_calib_scale sc;
+        v->size_mm = mb_calib_local_scale(ins->p.calib, cx, cy, &sc) == 0
+                         ? v->size_px * sc.mm_per_px : NAN;
+    }
 
     /* checks, most specific first */
     if (v->size_px < lim->size_lo || v->size_px > lim->size_hi) {
@@ -753,15 +816,24 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
                      fabs(v->size_px - edge) * u, unit);
     }
     judge_local(ins, &res, v);
-    if (pm->n_gauges > 0 && mm > 0) {
-        for (int c = 0; c < d; c++)
-            ins->mm_pts[c] = res.measured_xy[c] * mm;
+    judge_beyond(ins, frame, &res, v);
+    if (pm->n_gauges > 0 && (mm > 0 || ins->p.calib)) {
+        /* On the conveyor plane: through the calibration when there is
+           one (perspective and lens distortion removed), else one scale. */
+        int pts_ok = 1;
+        if (ins->p.calib)
+            pts_ok = mb_calib_points_to_mm(ins->p.calib, n, res.measured_xy,
+                                           ins->mm_pts) == 0;
+        else
+            for (int c = 0; c < d; c++)
+                ins->mm_pts[c] = res.measured_xy[c] * mm;
         for (int g = 0; g < pm->n_gauges; g++) {
             const mb_gauge_def *gd = &pm->gauges[g];
             mb_gauge_value *gv = &v->gauges[v->n_gauges++];
             snprintf(gv->name, sizeof gv->name, "%s", gd->name);
             gv->nominal = gd->nominal;
-            if (mb_gauge_measure(gd, v->layout, ins->mm_pts, ins->work, &gv->value) < 0) {
+            if (!pts_ok ||
+                mb_gauge_measure(gd, v->layout, ins->mm_pts, ins->work, &gv->value) < 0) {
                 gv->value = NAN;
                 gv->ok = 0;
             } else {

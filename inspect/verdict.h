@@ -22,6 +22,7 @@
 #include <stdint.h>
 
 #include "asm.h"
+#include "camera.h"
 #include "image.h"
 #include "locate.h"
 #include "part_model.h"
@@ -109,7 +110,15 @@ typedef struct {
 } mb_verdict;
 
 typedef struct {
-    double mm_per_px;   /**< 0: the model's; still 0: sizes in px only */
+    double mm_per_px;   /**< 0: the calibration's local scale at the frame
+                             centre when calib is given, else the model's;
+                             still 0: sizes in px only */
+    /** NULL: none. Given: gauges are measured on the conveyor plane in mm
+        (every measured point through mb_calib_points_to_mm) and size_mm
+        uses the local scale at the part centre. Copied by
+        mb_inspector_create (it need not outlive the call); its frame size
+        must be the model's. */
+    const mb_calib *calib;
     mb_asm_params search;
     mb_locate_params locate;
     int gap_run;        /**< consecutive landmarks without an edge that make
@@ -124,7 +133,8 @@ void mb_inspect_params_default(mb_inspect_params *p);
  * Make an inspector for a part model (referenced: it must outlive the
  * inspector) and frames of the model's size. Everything is allocated here.
  * Return value: 0; MB_EINVAL (the model cannot inspect: no profiles or no
- * limits; err says which); MB_ENOMEM; codes of the search set-up.
+ * limits; err says which); MB_ESIZE (a calibration for frames of another
+ * size than the model's); MB_ENOMEM; codes of the search set-up.
  */
 int mb_inspector_create(const mb_part_model *pm, const mb_inspect_params *p,
                         mb_inspector **out, char *err);
