@@ -6,9 +6,42 @@
 #include <math.h>
 #include <string.h>
 
+/* Crossing-number test: is (x, y) inside the closed polygon of n points? */
+static int inside(const double *xy, int n, double x, double y)
+{
+    int c = 0;
+    for (int i = 0, j = n - 1; i < n; j = i++) {
+        double yi = xy[2 * i + 1], yj = xy[2 * j + 1];
+        if ((yi > y) != (yj > y)) {
+            double xc = xy[2 * j] + (y - yj) * (xy[2 * i] - xy[2 * j]) / (yi - yj);
+            if (x < xc)
+                c = !c;
+        }
+    }
+    return c;
+}
+
+/* Is (x, y) material of the fitted model (inside the outer edge and
+   outside every hole)? A part whose own material lies a few px beyond an
+   edge (a lip beside a heel, a narrow slot) is not contamination there. */
+static int model_material(const mb_layout *l, const double *model, double x,
+                          double y)
+{
+    int first = 0;
+    for (int o = 0; o < l->n_outlines; o++) {
+        int in = inside(model + 2 * first, l->counts[o], x, y);
+        if (o == 0 && !in)
+            return 0;
+        if (o > 0 && in)
+            return 0;
+        first += l->counts[o];
+    }
+    return 1;
+}
+
 void mb_beyond_check(const mb_image *frame, const mb_asm_result *res,
-                     double part_grey, double back_grey, int min_run,
-                     mb_beyond *out)
+                     const mb_layout *layout, double part_grey,
+                     double back_grey, int min_run, mb_beyond *out)
 {
     memset(out, 0, sizeof *out);
     if (!frame || !res || res->dense_n < 3 || !res->dense_xy)
@@ -28,7 +61,9 @@ void mb_beyond_check(const mb_image *frame, const mb_asm_result *res,
                 if (x < 0 || y < 0 || x > frame->width - 1 || y > frame->height - 1)
                     continue;
                 double g = mb_pyramid_sample(frame, x, y);
-                like_part += part_dark ? g < mid : g > mid;
+                if ((part_dark ? g < mid : g > mid) &&
+                    !(layout && res->model_xy && model_material(layout, res->model_xy, x, y)))
+                    like_part++;
             }
             hit = like_part >= 2;
         }

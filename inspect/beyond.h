@@ -8,7 +8,8 @@
  * (fit/asm.h), at 3, 5 and 7 px beyond the measured edge, the grey level
  * must be on the background's side of the mid grey between the taught part
  * and background levels. A run of samples where two of the three points
- * look like the part is material that does not belong there.
+ * look like the part is material that does not belong there - unless the
+ * fitted model itself has material there (a lip beside a heel, a slot).
  * Only full-resolution pixels next to the outline are read.
  */
 #ifndef MB_BEYOND_H
@@ -29,7 +30,7 @@ typedef struct {
  * a finding (2 is about 2 px at 1 px spacing). Allocates nothing.
  */
 void mb_beyond_check(const mb_image *frame, const mb_asm_result *res,
-                     double part_grey, double back_grey, int min_run,
-                     mb_beyond *out);
+                     const mb_layout *layout, double part_grey,
+                     double back_grey, int min_run, mb_beyond *out);
 
 #endif

@@ -623,7 +623,8 @@ static void judge_beyond(mb_inspector *ins, const mb_image *frame,
 {
     const mb_profile_stats *st = mb_profile_model_stats(ins->pm->profiles);
     mb_beyond b;
-    mb_beyond_check(frame, res, st->part_grey, st->back_grey, 2, &b);
+    mb_beyond_check(frame, res, mb_shape_model_layout(ins->pm->shape),
+                    st->part_grey, st->back_grey, 2, &b);
     if (!b.found)
         return;
     double x = res->dense_xy[2 * b.worst], y = res->dense_xy[2 * b.worst + 1];

@@ -62,7 +62,9 @@
 #define W 1280
 #define H 1024
 #define MM_PER_PX 0.1
-#define N_TEACH 30
+/* teaching frames; -t changes it (false rejects fall as the limits are
+   estimated from more good parts) */
+static int N_TEACH = 30;
 #define N_BINS 5 /* < 0.5, 0.5-1, 1-2, >= 2 mm, no size (empty) */
 #define N_CONFIGS (2 * MB_SYNTH_N_FAMILIES)
 #define PATH_LEN 1024
@@ -499,8 +501,9 @@ int main(int argc, char **argv)
     }
     bench_opts o = {200, 200, 100, 100, "/tmp", NULL, NULL};
     int only = -1, opt;
-    while ((opt = getopt(argc, argv, "g:d:G:D:f:s:p:o:")) != -1) {
+    while ((opt = getopt(argc, argv, "g:d:G:D:f:s:p:o:t:")) != -1) {
         switch (opt) {
+        case 't': N_TEACH = atoi(optarg) >= 10 ? atoi(optarg) : 10; break;
         case 'g': o.n_good = atoi(optarg); break;
         case 'd': o.n_defect = atoi(optarg); break;
         case 'G': o.cv_good = atoi(optarg); break;
