@@ -15,6 +15,7 @@
 #include "gauges.h"
 #include "procrustes.h"
 #include "pyramid.h"
+#include "stats.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -304,30 +305,8 @@ static void refit_curve(mb_inspector *ins, const mb_asm_result *res,
         }
         if (it == 3 || nv < 3)
             break;
-        /* median |dist| by partial selection (nth element, O(n) average) */
-        int lo = 0, hi = nv - 1, want = nv / 2;
-        while (lo < hi) {
-            double piv = ins->work[(lo + hi) / 2];
-            int i = lo, j = hi;
-            while (i <= j) {
-                while (ins->work[i] < piv)
-                    i++;
-                while (ins->work[j] > piv)
-                    j--;
-                if (i <= j) {
-                    double t = ins->work[i];
-                    ins->work[i++] = ins->work[j];
-                    ins->work[j--] = t;
-                }
-            }
-            if (want <= j)
-                hi = j;
-            else if (want >= i)
-                lo = i;
-            else
-                break;
-        }
-        cut = fmax(1.0, 3.0 * 1.4826 * ins->work[want]);
+        double med = mb_stats_median_inplace(ins->work, nv);
+        cut = fmax(1.0, 3.0 * 1.4826 * med);
         /* fit to the targets; outliers and invalid points held at the model */
         double *tg = ins->y; /* scratch, d values */
         for (int j = 0; j < n; j++) {
