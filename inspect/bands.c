@@ -119,7 +119,11 @@ static void derive(const loo_scores *s, int excl, double alpha,
         for (int i = 0; i < s->m; i++)
             if (i != excl)
                 acc += s->z[i * s->k + q] * s->z[i * s->k + q];
-        lim->mode_band[q] = tq * sqrt(acc / mm) * infl;
+        /* the leave-one-out spread only ever widens the band: below 1 it
+           is the mode order changing between the leave-one-out models
+           (close eigenvalues), not a mode that varies less */
+        double sq = sqrt(acc / mm);
+        lim->mode_band[q] = tq * (sq > 1.0 ? sq : 1.0) * infl;
     }
 
     double ucl = mb_stats_t2_limit_new(a, s->k, mm);
