@@ -51,7 +51,8 @@ static const char *const repeat_help =
     "                    calibration (modeband calibrate); default: the\n"
     "                    model's mm per px\n"
     "  --mm-per-px F     one scale instead of a calibration\n"
-    "  --verbose         also print every image's gauge readings\n"
+    "  --verbose         also print every image's gauge readings, one line\n"
+    "                    each: IMAGE (part KEY): NAME = MM; NAME = MM ...\n"
     "\n"
     "Exit status: 0 the study was made (whatever the bands); 1 the model,\n"
     "calibration or images cannot give one (no gauges, no part measured\n"
@@ -106,11 +107,14 @@ int mb_cmd_repeatability(int argc, char **argv)
     if (!model)
         return mb_cli_usage_error("repeatability", "--model MODEL is required");
     if (npos != 1)
-        return mb_cli_usage_error("repeatability", "give one folder DIR of images");
+        return mb_cli_usage_error("repeatability",
+                                  "give one folder DIR of images");
     if (seen_mm && !(mm > 0))
-        return mb_cli_usage_error("repeatability", "--mm-per-px must be positive");
+        return mb_cli_usage_error("repeatability",
+                                  "--mm-per-px must be positive");
     if (seen_mm && calib)
-        return mb_cli_usage_error("repeatability", "give --mm-per-px or --calib, not both");
+        return mb_cli_usage_error("repeatability",
+                                  "give --mm-per-px or --calib, not both");
 
     int status = MB_EXIT_FAIL;
     mb_part_model pm;
@@ -118,7 +122,7 @@ int mb_cmd_repeatability(int argc, char **argv)
     mb_inspector *ins = NULL;
     mb_file_list files = {0, NULL};
     reading *rd = NULL;
-    char (*keys)[128] = NULL;
+    char(*keys)[128] = NULL;
     double *values = NULL;
     int *counts = NULL;
     static const char *const exts[] = {".pgm", ".png", ".pnm"};
@@ -128,8 +132,10 @@ int mb_cmd_repeatability(int argc, char **argv)
         goto done;
     }
     if (pm.n_gauges < 1) {
-        snprintf(err, sizeof err, "%.300s has no drawing gauges; teach it with "
-                                  "--gauges FILE", model);
+        snprintf(err, sizeof err,
+                 "%.300s has no drawing gauges; teach it with "
+                 "--gauges FILE",
+                 model);
         mb_cli_fail("repeatability", err);
         goto done;
     }
@@ -138,15 +144,17 @@ int mb_cmd_repeatability(int argc, char **argv)
     ip.mm_per_px = mm;
     mb_calib cal;
     if (calib) {
-        if (mb_calib_file_load_for(calib, pm.imaging.width, pm.imaging.height, &cal,
-                                   err) < 0) {
+        if (mb_calib_file_load_for(calib, pm.imaging.width, pm.imaging.height,
+                                   &cal, err) < 0) {
             mb_cli_fail("repeatability", err);
             goto done;
         }
         ip.calib = &cal;
     } else if (!(mm > 0) && !(pm.imaging.mm_per_px > 0)) {
-        snprintf(err, sizeof err, "%.300s has no scale; give --calib CAL.json or "
-                                  "--mm-per-px F", model);
+        snprintf(err, sizeof err,
+                 "%.300s has no scale; give --calib CAL.json or "
+                 "--mm-per-px F",
+                 model);
         mb_cli_fail("repeatability", err);
         goto done;
     }
@@ -161,9 +169,10 @@ int mb_cmd_repeatability(int argc, char **argv)
         goto done;
     }
     if (files.count < 2) {
-        snprintf(err, sizeof err, "%.300s: found %d image%s; a study needs the "
-                 "same parts imaged several times", pos[0], files.count,
-                 files.count == 1 ? "" : "s");
+        snprintf(err, sizeof err,
+                 "%.300s: found %d image%s; a study needs the "
+                 "same parts imaged several times",
+                 pos[0], files.count, files.count == 1 ? "" : "s");
         mb_cli_fail("repeatability", err);
         goto done;
     }
@@ -180,8 +189,10 @@ int mb_cmd_repeatability(int argc, char **argv)
         const char *path = files.paths[i];
         char key[128];
         if (part_key(path, key, sizeof key) < 0) {
-            snprintf(err, sizeof err, "%.300s: the name has no '_' before the "
-                     "shot; name images <part>_<shot>.pgm", path);
+            snprintf(err, sizeof err,
+                     "%.300s: the name has no '_' before the "
+                     "shot; name images <part>_<shot>.pgm",
+                     path);
             mb_cli_fail("repeatability", err);
             goto done;
         }
@@ -195,9 +206,10 @@ int mb_cmd_repeatability(int argc, char **argv)
         mb_inspector_run(ins, &img, &v);
         mb_image_free(&img);
         if (!v.converged || v.n_gauges < ng) {
-            fprintf(stderr, "modeband repeatability: %s: %s%s%s (left out)\n", path,
-                    v.verdict == MB_VERDICT_FAULT ? "fault" : "no measurement",
-                    v.n_reasons ? ": " : "", v.n_reasons ? v.reasons[0].text : "");
+            fprintf(
+                stderr, "modeband repeatability: %s: %s%s%s (left out)\n", path,
+                v.verdict == MB_VERDICT_FAULT ? "fault" : "no measurement",
+                v.n_reasons ? ": " : "", v.n_reasons ? v.reasons[0].text : "");
             unfit++;
             continue;
         }
@@ -213,16 +225,19 @@ int mb_cmd_repeatability(int argc, char **argv)
         if (verbose) {
             printf("%s (part %s):", path, key);
             for (int g = 0; g < ng; g++)
-                printf(" %s %.4f", v.gauges[g].name, v.gauges[g].value);
+                printf("%s %s = %.6f", g ? ";" : "", v.gauges[g].name,
+                       v.gauges[g].value);
             printf("\n");
         }
     }
 
-    printf("repeatability study: %d images of %d parts (%d left out), measured %s\n",
+    printf("repeatability study: %d images of %d parts (%d left out), measured "
+           "%s\n",
            n_read, n_parts, unfit,
            calib ? "through the calibration" : "at one scale (no calibration)");
-    printf("%-16s %-10s %5s %5s %9s %9s %9s %9s %7s  %s\n", "gauge", "kind", "parts",
-           "n", "mean mm", "sd mm", "sd95 mm", "tol mm", "%GRR", "band");
+    printf("%-16s %-10s %5s %5s %9s %10s %10s %9s %7s  %s\n", "gauge", "kind",
+           "parts", "n", "mean mm", "sd mm", "sd95 mm", "tol mm", "%GRR",
+           "band");
     int done_any = 0;
     for (int g = 0; g < ng; g++) {
         const mb_gauge_def *gd = &pm.gauges[g];
@@ -243,18 +258,19 @@ int mb_cmd_repeatability(int argc, char **argv)
         }
         mb_grr gr;
         const char *unit = gd->kind == MB_GAUGE_AREA ? " (mm^2)" : "";
-        if (np < 1 || mb_grr_compute(values, counts, np, gd->tol_hi - gd->tol_lo, &gr,
-                                     err) < 0) {
+        if (np < 1 || mb_grr_compute(values, counts, np,
+                                     gd->tol_hi - gd->tol_lo, &gr, err) < 0) {
             printf("%-16.16s %-10.10s %5d %5d  no study: %s\n", gd->name,
                    mb_gauge_kind_name(gd->kind), np, nv,
                    np < 1 ? "no readings" : err);
             continue;
         }
         done_any = 1;
-        printf("%-16.16s %-10.10s %5d %5d %9.4f %9.5f %9.5f %9.4f %7.2f  %s%s\n",
-               gd->name, mb_gauge_kind_name(gd->kind), gr.parts, gr.measurements,
-               sum / nv, gr.sigma, gr.sigma_upper, gr.tolerance, gr.percent_grr,
-               mb_grr_band_name(gr.band), unit);
+        printf(
+            "%-16.16s %-10.10s %5d %5d %9.4f %10.6f %10.6f %9.4f %7.2f  %s%s\n",
+            gd->name, mb_gauge_kind_name(gd->kind), gr.parts, gr.measurements,
+            sum / nv, gr.sigma, gr.sigma_upper, gr.tolerance, gr.percent_grr,
+            mb_grr_band_name(gr.band), unit);
     }
     if (!done_any) {
         mb_cli_fail("repeatability", "no gauge could be studied: no part was "
@@ -262,8 +278,9 @@ int mb_cmd_repeatability(int argc, char **argv)
         goto done;
     }
     if (n_parts < 10)
-        printf("note: %d parts; AIAG studies use 10 parts or more, 3 shots each\n",
-               n_parts);
+        printf(
+            "note: %d parts; AIAG studies use 10 parts or more, 3 shots each\n",
+            n_parts);
     status = MB_EXIT_OK;
 done:
     free(counts);

@@ -10,9 +10,12 @@
 #include "image_file.h"
 #include "labels_file.h"
 #include "synth.h"
+#include "synth_target.h"
+#include "target.h"
 
 #include <errno.h>
 #include <inttypes.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -27,6 +30,9 @@ static const char *const synth_help =
     "                      [--blur SIGMA] [--illumination F] [--variation F]\n"
     "                      [--start I] [--format pgm|png] [--drift F]\n"
     "                      [--reimage K]\n"
+    "       modeband synth --target --pitch MM --rows R --cols C --out DIR\n"
+    "                      [--count N] [--size WxH] [--mm-per-px F] [--noise SIGMA]\n"
+    "                      [--blur SIGMA] [--seed S] [--format pgm|png]\n"
     "\n"
     "Write frames of the synthetic production line and their ground truth.\n"
     "Every frame is a pure function of the options and its part index, so the\n"
@@ -68,6 +74,12 @@ static const char *const synth_help =
     "Writes DIR/NAME_0001.pgm ... and DIR/labels.jsonl: one JSON object per\n"
     "frame with the image name, family, good or defect type with its size in\n"
     "mm and location, the pose, and the exact outlines in image px.\n"
+    "\n"
+    "With --target: frames of the calibration target (modeband target, same\n"
+    "--pitch, --rows, --cols) lying on the conveyor, seen by the synthetic\n"
+    "line's camera (straight down at --mm-per-px, its blur and noise), the\n"
+    "sheet turned and shifted a little from frame to frame: DIR/target_01.pgm\n"
+    "... (--count frames, default 3), for modeband calibrate.\n"
     "Exit status: 0 done, 1 failure, 2 usage error.\n";
 
 /* "640x512" -> w, h */
@@ -126,18 +138,111 @@ static int make_dir(const char *dir, char *err)
     return 0;
 }
 
+/* `--target`: n frames of the calibration target on the synthetic line. */
+static int synth_target(const char *out, int n, int rows, int cols, double pitch,
+                        int w, int h, double mm_per_px, double noise, double blur,
+                        uint64_t seed, int png)
+{
+    char err[MB_ERR_LEN];
+    mb_target t;
+    if (mb_target_init(rows, cols, pitch, &t, err) < 0)
+        return mb_cli_usage_error("synth", err);
+    mb_synth_disc *discs = malloc((size_t)(rows * cols + (rows - 1) * (cols - 1)) *
+                                  sizeof *discs);
+    mb_image frame = {0, 0, 0, NULL};
+    int nd = 0, status = MB_EXIT_FAIL;
+    size_t plen = strlen(out) + 64;
+    char *path = malloc(plen);
+    if (!discs || !path || mb_image_alloc(w, h, &frame) < 0) {
+        mb_cli_fail("synth", "out of memory");
+        goto done;
+    }
+    for (int r = 0; r < rows; r++)
+        for (int c = 0; c < cols; c++)
+            discs[nd++] = (mb_synth_disc){c * pitch, r * pitch, t.dot_diameter / 2};
+    for (int r = 0; r < rows - 1; r++)
+        for (int c = 0; c < cols - 1; c++)
+            if (mb_target_cell_marked(&t, r, c))
+                discs[nd++] = (mb_synth_disc){(c + 0.5) * pitch, (r + 0.5) * pitch,
+                                              t.mark_diameter / 2};
+    if (make_dir(out, err) < 0) {
+        mb_cli_fail("synth", err);
+        goto done;
+    }
+    for (int i = 0; i < n; i++) {
+        /* Small turns and shifts, the same for the same frame number. */
+        static const double turn[6] = {0, 7, -6, 4, -3, 2};
+        static const double move[6][2] = {{0, 0}, {0.3, -0.2}, {-0.3, 0.2},
+                                          {0.2, 0.3}, {-0.2, -0.3}, {0.1, 0}};
+        mb_synth_target_view v;
+        mb_synth_target_view_default(&v, w, h);
+        v.mm_per_px = mm_per_px;
+        v.noise = noise;
+        v.blur = blur;
+        v.seed = seed * 1000003u + (uint64_t)i;
+        v.angle_deg = turn[i % 6];
+        v.anchor_mm[0] = 0.5 * (cols - 1) * pitch;
+        v.anchor_mm[1] = 0.5 * (rows - 1) * pitch;
+        v.centre_px[0] += move[i % 6][0] * pitch / mm_per_px;
+        v.centre_px[1] += move[i % 6][1] * pitch / mm_per_px;
+        v.sheet_mm[0] = -1.5 * pitch;
+        v.sheet_mm[1] = -1.5 * pitch;
+        v.sheet_mm[2] = (cols - 1 + 1.5) * pitch;
+        v.sheet_mm[3] = (rows - 1 + 1.5) * pitch;
+        /* the dots and their quiet zone must be in view */
+        double a = v.angle_deg * M_PI / 180.0;
+        for (int k = 0; k < 4; k++) {
+            double X = v.sheet_mm[k & 1 ? 2 : 0] - v.anchor_mm[0];
+            double Y = v.sheet_mm[k & 2 ? 3 : 1] - v.anchor_mm[1];
+            double x = v.centre_px[0] + (cos(a) * X - sin(a) * Y) / mm_per_px;
+            double y = v.centre_px[1] + (sin(a) * X + cos(a) * Y) / mm_per_px;
+            if (x < 0 || y < 0 || x > w - 1 || y > h - 1) {
+                snprintf(err, sizeof err,
+                         "the target sheet (%.1f x %.1f mm with its quiet zone) "
+                         "does not fit a %dx%d px frame at %g mm/px; choose a "
+                         "smaller --pitch or fewer --rows/--cols",
+                         v.sheet_mm[2] - v.sheet_mm[0], v.sheet_mm[3] - v.sheet_mm[1],
+                         w, h, mm_per_px);
+                status = mb_cli_usage_error("synth", err);
+                goto done;
+            }
+        }
+        if (mb_synth_target_frame(discs, nd, &v, &frame, err) < 0) {
+            mb_cli_fail("synth", err);
+            goto done;
+        }
+        snprintf(path, plen, "%s/target_%02d.%s", out, i + 1, png ? "png" : "pgm");
+        if ((png ? mb_image_save_png(path, &frame, err)
+                 : mb_image_save_pgm(path, &frame, err)) < 0) {
+            mb_cli_fail("synth", err);
+            goto done;
+        }
+    }
+    printf("wrote %d frame%s of the %d x %d target, pitch %.1f mm (%dx%d px, "
+           "%g mm/px) to %s\n", n, n == 1 ? "" : "s", rows, cols, pitch, w, h,
+           mm_per_px, out);
+    status = MB_EXIT_OK;
+done:
+    mb_image_free(&frame);
+    free(path);
+    free(discs);
+    return status;
+}
+
 int mb_cmd_synth(int argc, char **argv)
 {
     const char *family = NULL, *out = NULL, *lighting = "back", *seed_s = NULL;
     const char *size = NULL, *format = "pgm", *defects = NULL;
     int count = 20, start = 0, help = 0, npos = 0, reimage = 0, seen_reimage = 0;
+    int target = 0, rows = 0, cols = 0, seen_count = 0;
+    double pitch = 0;
     double rate = 0, mm_per_px = 0.1, noise = 2, blur = 1, illum = 0.12,
            variation = 1, drift = 0;
     char err[MB_ERR_LEN];
     const mb_opt opts[] = {
         {"family", MB_OPT_STRING, &family, NULL},
         {"out", MB_OPT_STRING, &out, NULL},
-        {"count", MB_OPT_INT, &count, NULL},
+        {"count", MB_OPT_INT, &count, &seen_count},
         {"defect-rate", MB_OPT_DOUBLE, &rate, NULL},
         {"defects", MB_OPT_STRING, &defects, NULL},
         {"lighting", MB_OPT_STRING, &lighting, NULL},
@@ -152,6 +257,10 @@ int mb_cmd_synth(int argc, char **argv)
         {"start", MB_OPT_INT, &start, NULL},
         {"format", MB_OPT_STRING, &format, NULL},
         {"reimage", MB_OPT_INT, &reimage, &seen_reimage},
+        {"target", MB_OPT_FLAG, &target, NULL},
+        {"pitch", MB_OPT_DOUBLE, &pitch, NULL},
+        {"rows", MB_OPT_INT, &rows, NULL},
+        {"cols", MB_OPT_INT, &cols, NULL},
     };
     if (mb_cli_parse(argc, argv, opts, sizeof opts / sizeof opts[0], NULL, 0,
                      &npos, &help, err) < 0)
@@ -160,11 +269,14 @@ int mb_cmd_synth(int argc, char **argv)
         fputs(synth_help, stdout);
         return MB_EXIT_OK;
     }
-    if (!family)
+    if (target && family)
+        return mb_cli_usage_error("synth", "give --target or --family, not both");
+    if (!target && !family)
         return mb_cli_usage_error("synth", "--family is required");
     if (!out)
         return mb_cli_usage_error("synth", "--out is required");
-    int fam = mb_synth_family_from_name(family);
+    /* --target: the line's camera defaults (frame size, seed) of any family */
+    int fam = mb_synth_family_from_name(target ? "ring" : family);
     if (fam < 0) {
         snprintf(err, sizeof err,
                  "--family: unknown family '%.60s'; expected ring, flange, "
@@ -209,6 +321,17 @@ int mb_cmd_synth(int argc, char **argv)
             return mb_cli_usage_error("synth", err);
         }
         cfg.seed = s;
+    }
+    if (target) {
+        if (!seen_count)
+            count = 3;
+        if (count > 1000)
+            return mb_cli_usage_error("synth", "with --target, --count expects 1..1000");
+        if (!(mm_per_px > 0) || !(noise >= 0) || !(blur >= 0))
+            return mb_cli_usage_error("synth", "--mm-per-px must be positive, --noise "
+                                               "and --blur not negative");
+        return synth_target(out, count, rows, cols, pitch, cfg.width, cfg.height,
+                            mm_per_px, noise, blur, cfg.seed, png);
     }
     if (defects && parse_defects(defects, &cfg.defect_mask, err) < 0)
         return mb_cli_usage_error("synth", err);

@@ -440,6 +440,9 @@ static int teach_from_images(const char *dir, const char *out,
            pm.imaging.dark_part ? "dark" : "bright",
            pm.imaging.dark_part ? "bright" : "dark", pm.imaging.width,
            pm.imaging.height);
+    if (tp->calib)
+        printf("scale: through the calibration, on the conveyor plane (%.6f mm/px "
+               "at the frame centre)\n", pm.imaging.mm_per_px);
     printf("outlines: %s (outer edge first, then holes)\n", lt);
     printf("edges: median blur %.2f px, contrast %.0f grey levels\n", log.blur,
            log.contrast);

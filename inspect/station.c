@@ -263,7 +263,7 @@ static int load_slots(const mb_station_config *cfg, slot_rt **out)
         if (cs->calibration[0]) {
             if (mb_calib_file_load_for(cs->calibration, r->pm.imaging.width,
                                        r->pm.imaging.height, &cal, err) < 0) {
-                snprintf(r->error, sizeof r->error, "slot %d: %.400s", cs->slot, err);
+                snprintf(r->error, sizeof r->error, "%s", err);
                 failed++;
                 continue;
             }

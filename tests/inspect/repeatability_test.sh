@@ -10,11 +10,16 @@
 # 0.1, to rounding; one for 0.11 mm/px must give gauges 1.1 times larger
 # (exactly: every point goes through the calibration, not a default
 # scale); one for another frame size must be refused with the sentence.
-# usage: repeatability_test.sh MODEBAND SCRATCH GAUGES_JSON
+# The table is checked against numpy/scipy (ref_repeatability.py: one-way
+# ANOVA within-part mean square, scipy's chi-square quantile, F against
+# scipy.stats.f_oneway) from the same readings.
+# usage: repeatability_test.sh MODEBAND SCRATCH GAUGES_JSON PYTHON
 set -u
 mb=$1
 tmp=$2
 gauges=$3
+py=$4
+here=$(dirname "$0")
 rm -rf "$tmp" && mkdir -p "$tmp"
 pass=0
 fail=0
@@ -51,6 +56,11 @@ n=$(grep -c '"shot":4' "$tmp/rep/labels.jsonl")
 # a new pose every shot: the five shots of part 1 at five places
 np=$(grep '"index":0,' "$tmp/rep/labels.jsonl" | sed -n 's/.*"pose":{\([^}]*\)}.*/\1/p' | sort -u | wc -l)
 [ "$np" -eq 5 ] && ok || bad "part 1 at $np distinct poses, wanted 5"
+
+"$mb" synth --family ring --count 2 --reimage 0 --out "$tmp/x" >/dev/null 2>&1
+[ $? -eq 2 ] && ok || bad "synth --reimage 0 not a usage error"
+"$mb" synth --target --family ring --pitch 4 --rows 8 --cols 11 --out "$tmp/x" >/dev/null 2>&1
+[ $? -eq 2 ] && ok || bad "synth --target with --family not a usage error"
 
 calib "$tmp/cal.json" 640 512 10
 calib "$tmp/cal11.json" 640 512 9.0909090909090909
@@ -98,6 +108,53 @@ has "$tmp/err" "cal800.json: made for 800x512 px frames, but this frame is 640x5
 "$mb" inspect --model "$tmp/model.json" --calib "$tmp/none.json" "$img" >/dev/null 2>&1
 [ $? -eq 1 ] && ok || bad "inspect with a missing calibration not refused"
 
+# ---- a calibration the program makes itself: frames of the target on the
+# synthetic line (synth --target), then modeband calibrate; the synthetic
+# camera's true scale is 0.1 mm/px everywhere, no distortion
+"$mb" synth --target --pitch 4 --rows 8 --cols 11 --count 4 --size $size \
+    --out "$tmp/target" >/dev/null || bad "synth --target"
+"$mb" synth --target --pitch 10 --rows 8 --cols 11 --size $size --out "$tmp/x" >/dev/null 2>"$tmp/err"
+[ $? -eq 2 ] && ok || bad "a target larger than the frame not refused"
+has "$tmp/err" "does not fit a 640x512 px frame" "target-too-large sentence"
+"$mb" calibrate --pitch 4 --rows 8 --cols 11 --out "$tmp/made.json" "$tmp"/target/target_0*.pgm \
+    >"$tmp/calibrate.txt" 2>&1 || { bad "calibrate the synthetic camera"; cat "$tmp/calibrate.txt"; }
+grep -E "reprojection|centre|bottom right" "$tmp/calibrate.txt"
+for where in centre "top left" "bottom right"; do
+    sc=$(sed -n "s/^  $where .*: \([0-9.]*\) mm\/px.*/\1/p" "$tmp/calibrate.txt")
+    # within 0.1 % of the truth (measured: 0.001 % at the centre, 0.05 % at
+    # the corners, where the distortion is extrapolated)
+    if awk "BEGIN { d = $sc / 0.1 - 1; exit !(d < 0.001 && d > -0.001) }"; then ok; else bad "$where scale $sc, truth 0.1"; fi
+done
+"$mb" inspect --model "$tmp/model.json" --calib "$tmp/made.json" --json "$img" \
+    >"$tmp/i_made.json" || bad "inspect --calib (made)"
+m=$(od "$tmp/i_made.json")
+echo "OD through the calibration made from the target frames: $m mm"
+if awk "BEGIN { exit !($m - $a < 0.01 && $a - $m < 0.01) }"; then ok; else bad "OD $m through the made calibration vs $a"; fi
+
+# ---- the station: a slot's "calibration"; one for another frame size
+# leaves the slot unusable (its parts faults), with the sentence
+station() {
+    cat >"$tmp/st.json" <<EOC
+{"format": "modeband-station", "version": 1, "station": "t",
+ "camera": {"source": "replay", "width": 640, "height": 512,
+            "replay": {"folder": "$tmp/rep", "fps": 0, "loop": false}},
+ "trigger": "every",
+ "slots": [{"slot": 1, "model": "$tmp/model.json", "calibration": "$1"}], "active_slot": 1,
+ "plc": {"mode": "server", "bind": "127.0.0.1", "port": 0, "max_connections": 4},
+ "logs": {"folder": "$tmp/logs_$2", "flush_interval_s": 1, "retention_days": 30,
+          "reject_images": {"folder": "$tmp/rejects", "cap_mb": 20}},
+ "shifts": [{"name": "all", "start": "00:00"}],
+ "timeouts": {"inspection_ms": 2000, "frame_ms": 2000}}
+EOC
+    "$mb" run --config "$tmp/st.json" --parts 3 >/dev/null 2>"$tmp/station_$2.txt"
+}
+station "$tmp/made.json" made || bad "station with a calibration"
+has "$tmp/station_made.txt" "3 parts: 3 passed" "station through the calibration"
+has "$tmp/logs_made/"*.jsonl '"name":"OD","value_mm":' "station logs gauges in mm"
+station "$tmp/cal800.json" c800
+has "$tmp/station_c800.txt" "cal800.json: made for 800x512 px frames" "station frame-size sentence"
+has "$tmp/station_c800.txt" "3 parts: 0 passed, 0 rejected, 3 faults" "station slot unusable"
+
 # ---- the repeatability study
 "$mb" repeatability --help >"$tmp/out" && ok || bad "repeatability --help"
 has "$tmp/out" "<part>_<shot>.pgm" "naming rule in help"
@@ -105,10 +162,13 @@ has "$tmp/out" "<part>_<shot>.pgm" "naming rule in help"
 [ $? -eq 2 ] && ok || bad "repeatability without DIR not a usage error"
 "$mb" repeatability --model "$tmp/model.json" --calib "$tmp/cal800.json" "$tmp/rep" >/dev/null 2>&1
 [ $? -eq 1 ] && ok || bad "repeatability with an 800x512 calibration not refused"
-"$mb" repeatability --model "$tmp/model_cal.json" --calib "$tmp/cal.json" "$tmp/rep" \
-    >"$tmp/grr.txt" 2>"$tmp/grr_err.txt"
+"$mb" repeatability --model "$tmp/model_cal.json" --calib "$tmp/made.json" --verbose \
+    "$tmp/rep" >"$tmp/grr.txt" 2>"$tmp/grr_err.txt"
 [ $? -eq 0 ] && ok || { bad "repeatability exit"; cat "$tmp/grr_err.txt"; }
-cat "$tmp/grr.txt"
+grep -v "(part " "$tmp/grr.txt"
+n=$(grep -c "(part ring_000[1-4]): OD = [0-9.]*; ID = [0-9.]*$" "$tmp/grr.txt")
+[ "$n" -eq 20 ] && ok || bad "$n verbose reading lines, wanted 20"
+"$py" "$here/ref_repeatability.py" "$tmp/grr.txt" OD=1.5,ID=1.8 && ok || bad "table against numpy/scipy"
 has "$tmp/grr.txt" "20 images of 4 parts (0 left out), measured through the calibration" "study summary"
 for g in OD ID; do
     line=$(grep "^$g " "$tmp/grr.txt")
