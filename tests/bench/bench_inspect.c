@@ -65,6 +65,8 @@
 /* teaching frames; -t changes it (false rejects fall as the limits are
    estimated from more good parts) */
 static int N_TEACH = 30;
+/* per-part false-reject target for teaching; -a changes it (0: default) */
+static double ALPHA = 0.0;
 #define N_BINS 5 /* < 0.5, 0.5-1, 1-2, >= 2 mm, no size (empty) */
 #define N_CONFIGS (2 * MB_SYNTH_N_FAMILIES)
 #define PATH_LEN 1024
@@ -320,6 +322,8 @@ static void run_config(int fam, int light, const bench_opts *o, config_figures *
     mb_teach_params tp;
     mb_teach_params_default(&tp);
     tp.mm_per_px = MM_PER_PX;
+    if (ALPHA > 0)
+        tp.bands.alpha = ALPHA;
     mb_part_model pm;
     mb_teach_log log;
     memset(&pm, 0, sizeof pm);
@@ -501,8 +505,9 @@ int main(int argc, char **argv)
     }
     bench_opts o = {200, 200, 100, 100, "/tmp", NULL, NULL};
     int only = -1, opt;
-    while ((opt = getopt(argc, argv, "g:d:G:D:f:s:p:o:t:")) != -1) {
+    while ((opt = getopt(argc, argv, "g:d:G:D:f:s:p:o:t:a:")) != -1) {
         switch (opt) {
+        case 'a': ALPHA = atof(optarg); break;
         case 't': N_TEACH = atoi(optarg) >= 10 ? atoi(optarg) : 10; break;
         case 'g': o.n_good = atoi(optarg); break;
         case 'd': o.n_defect = atoi(optarg); break;
