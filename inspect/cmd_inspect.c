@@ -9,7 +9,6 @@
 #include "error.h"
 #include "image_file.h"
 #include "model_file.h"
-#include "overlay.h"
 #include "verdict.h"
 
 #include <cjson/cJSON.h>
@@ -69,8 +68,7 @@ static cJSON *reason_json(const mb_reason *r)
     cJSON_AddItemToObject(o, "limit", number(r->limit));
     if (r->code == MB_REASON_MODE)
         cJSON_AddNumberToObject(o, "mode", r->mode);
-    if (r->code == MB_REASON_NICK || r->code == MB_REASON_FLASH ||
-        r->code == MB_REASON_GAP || r->code == MB_REASON_DEFORM) {
+    if (mb_reason_located(r->code)) {
         cJSON_AddNumberToObject(o, "outline", r->outline);
         cJSON_AddNumberToObject(o, "position", r->position);
         cJSON_AddNumberToObject(o, "position_mm", r->position_mm);
@@ -175,22 +173,7 @@ static int write_overlay(const char *dir, const char *image, const mb_image *img
     const char *dot = strrchr(base, '.');
     int len = dot ? (int)(dot - base) : (int)strlen(base);
     snprintf(path, sizeof path, "%s/%.*s.png", dir, len, base);
-    mb_overlay_mark marks[MB_MAX_REASONS];
-    int nm = 0;
-    for (int i = 0; i < v->n_reasons; i++) {
-        const mb_reason *r = &v->reasons[i];
-        if (r->code == MB_REASON_NICK || r->code == MB_REASON_FLASH ||
-            r->code == MB_REASON_GAP || r->code == MB_REASON_DEFORM) {
-            marks[nm].x = r->x;
-            marks[nm].y = r->y;
-            double mmpp = r->depth_px > 0 && r->depth_mm > 0 ? r->depth_mm / r->depth_px : 0;
-            marks[nm].radius = 10.0 + (mmpp > 0 ? r->extent_mm / mmpp / 2 : 0);
-            nm++;
-        }
-    }
-    mb_overlay ov = {img, v->measured ? v->layout : NULL, v->model_xy,
-                     v->measured, v->valid, (int)v->verdict, marks, nm};
-    return mb_overlay_save(path, &ov, err);
+    return mb_verdict_save_overlay(v, img, path, 0.0, err);
 }
 
 static void fault_unreadable(const char *image, const char *why, int json)

@@ -16,7 +16,6 @@
 #include "error.h"
 #include "file_util.h"
 #include "model_file.h"
-#include "overlay.h"
 #include "plc.h"
 #include "rejects.h"
 #include "replay_source.h"
@@ -362,21 +361,7 @@ static int save_reject(mb_station *st, const mb_image *img, const mb_verdict *v,
     if (!st->rejects ||
         mb_rejects_path(st->rejects, mb_shiftlog_now_ms(), st->seq, path, len, err) < 0)
         return -1;
-    mb_overlay_mark marks[MB_MAX_REASONS];
-    int nm = 0;
-    for (int i = 0; i < v->n_reasons; i++) {
-        const mb_reason *r = &v->reasons[i];
-        if (r->code == MB_REASON_NICK || r->code == MB_REASON_FLASH ||
-            r->code == MB_REASON_GAP || r->code == MB_REASON_DEFORM) {
-            marks[nm].x = r->x;
-            marks[nm].y = r->y;
-            marks[nm].radius = 12.0;
-            nm++;
-        }
-    }
-    mb_overlay ov = {img, v->measured ? v->layout : NULL, v->model_xy,
-                     v->measured, v->valid, (int)v->verdict, marks, nm};
-    if (mb_overlay_save(path, &ov, err) < 0) {
+    if (mb_verdict_save_overlay(v, img, path, 12.0, err) < 0) {
         say(4, "reject image not saved: %s", err);
         return -1;
     }
@@ -489,8 +474,7 @@ static void report_part(mb_station *st, slot_rt *s, const mb_verdict *v,
         o->text = r->text;
         o->value = r->value;
         o->limit = r->limit;
-        o->located = r->code == MB_REASON_NICK || r->code == MB_REASON_FLASH ||
-                     r->code == MB_REASON_GAP || r->code == MB_REASON_DEFORM;
+        o->located = mb_reason_located(r->code);
         o->outline = r->outline;
         o->position = r->position;
         o->angle_deg = r->angle_deg;

@@ -13,6 +13,7 @@
 #include "error.h"
 #include "beyond.h"
 #include "gauges.h"
+#include "overlay.h"
 #include "procrustes.h"
 #include "pyramid.h"
 #include "stats.h"
@@ -62,6 +63,33 @@ const char *mb_reason_name(mb_reason_code c)
         reason_names[c])
         return reason_names[c];
     return "unknown";
+}
+
+int mb_reason_located(mb_reason_code c)
+{
+    return c == MB_REASON_NICK || c == MB_REASON_FLASH || c == MB_REASON_GAP ||
+           c == MB_REASON_DEFORM;
+}
+
+int mb_verdict_save_overlay(const mb_verdict *v, const mb_image *frame,
+                            const char *path, double ring_px, char *err)
+{
+    mb_overlay_mark marks[MB_MAX_REASONS];
+    int nm = 0;
+    for (int i = 0; i < v->n_reasons; i++) {
+        const mb_reason *r = &v->reasons[i];
+        if (!mb_reason_located(r->code))
+            continue;
+        marks[nm].x = r->x;
+        marks[nm].y = r->y;
+        double mmpp = r->depth_px > 0 && r->depth_mm > 0 ? r->depth_mm / r->depth_px : 0;
+        marks[nm].radius = ring_px > 0 ? ring_px
+                                       : 10.0 + (mmpp > 0 ? r->extent_mm / mmpp / 2 : 0);
+        nm++;
+    }
+    mb_overlay ov = {frame, v->measured ? v->layout : NULL, v->model_xy,
+                     v->measured, v->valid, (int)v->verdict, marks, nm};
+    return mb_overlay_save(path, &ov, err);
 }
 
 void mb_inspect_params_default(mb_inspect_params *p)

@@ -58,6 +58,10 @@ typedef enum {
 /** Short stable name of a reason ("nick", "off-edge", ...). */
 const char *mb_reason_name(mb_reason_code c);
 
+/** 1 for the reasons that carry a place on the part (nick, flash, gap,
+    deform): outline, position, angle, x/y, depth, extent. */
+int mb_reason_located(mb_reason_code c);
+
 #define MB_MAX_REASONS 12
 
 typedef struct {
@@ -147,5 +151,14 @@ void mb_inspector_close(mb_inspector *ins);
  * NULL arguments.
  */
 int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v);
+
+/**
+ * Write the picture of an inspection (io/overlay.h) to path: the frame,
+ * the model and measured outlines, a ring around every located reason.
+ * ring_px > 0 gives every ring that radius; 0 sizes each ring by the
+ * defect's extent. Return value: as mb_overlay_save.
+ */
+int mb_verdict_save_overlay(const mb_verdict *v, const mb_image *frame,
+                            const char *path, double ring_px, char *err);
 
 #endif
