@@ -345,6 +345,17 @@ static void close_device(cam *c)
     c->fd = -1;
 }
 
+/* The v4l2_buffer naming mmap capture buffer i (QUERYBUF, QBUF). */
+static struct v4l2_buffer mmap_buffer(int i)
+{
+    struct v4l2_buffer b;
+    memset(&b, 0, sizeof b);
+    b.type = V4L2_BUF_TYPE_VIDEO_CAPTURE;
+    b.memory = V4L2_MEMORY_MMAP;
+    b.index = (__u32)i;
+    return b;
+}
+
 static int start_streaming(cam *c, char *err)
 {
     struct v4l2_requestbuffers req;
@@ -363,11 +374,7 @@ static int start_streaming(cam *c, char *err)
         req.count > MB_V4L2_MAX_BUFFERS ? MB_V4L2_MAX_BUFFERS : (int)req.count;
     c->info.buffers = c->n_buf;
     for (int i = 0; i < c->n_buf; i++) {
-        struct v4l2_buffer b;
-        memset(&b, 0, sizeof b);
-        b.type = V4L2_BUF_TYPE_VIDEO_CAPTURE;
-        b.memory = V4L2_MEMORY_MMAP;
-        b.index = (__u32)i;
+        struct v4l2_buffer b = mmap_buffer(i);
         if (xioctl(c->fd, VIDIOC_QUERYBUF, &b) < 0)
             return mb_err_set(err, dev_code(errno),
                               "camera %s: querying buffer %d failed: %s",
@@ -387,11 +394,7 @@ static int start_streaming(cam *c, char *err)
         c->buf[i].length = b.length;
     }
     for (int i = 0; i < c->n_buf; i++) {
-        struct v4l2_buffer b;
-        memset(&b, 0, sizeof b);
-        b.type = V4L2_BUF_TYPE_VIDEO_CAPTURE;
-        b.memory = V4L2_MEMORY_MMAP;
-        b.index = (__u32)i;
+        struct v4l2_buffer b = mmap_buffer(i);
         if (xioctl(c->fd, VIDIOC_QBUF, &b) < 0)
             return mb_err_set(err, dev_code(errno),
                               "camera %s: queueing buffer %d failed: %s",

@@ -204,15 +204,28 @@ static int get_array(const cJSON *o, const char *name, const char *parent,
     return mb_json_numbers(a, name, field, n, out, err);
 }
 
+/* An optional section of the payload: 1 and *o when present, 0 when not,
+   MB_EFORMAT with the sentence when it is not an object. */
+static int optional_section(const cJSON *payload, const char *key,
+                            const char *name, const char *par,
+                            const cJSON **o, char *err)
+{
+    *o = cJSON_GetObjectItemCaseSensitive(payload, key);
+    if (!*o)
+        return 0;
+    if (!cJSON_IsObject(*o))
+        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+    return 1;
+}
+
 static int read_imaging(const cJSON *payload, const char *name,
                         mb_part_model *pm, char *err)
 {
-    const cJSON *o = cJSON_GetObjectItemCaseSensitive(payload, "imaging");
+    const cJSON *o;
     const char *par = "payload.imaging";
-    if (!o)
-        return MB_OK;
-    if (!cJSON_IsObject(o))
-        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+    int present = optional_section(payload, "imaging", name, par, &o, err);
+    if (present <= 0)
+        return present;
     int rc;
     if ((rc = get_int(o, name, par, "width", 0, 65536, &pm->imaging.width, err)) < 0 ||
         (rc = get_int(o, name, par, "height", 0, 65536, &pm->imaging.height, err)) < 0 ||
@@ -228,12 +241,11 @@ static int read_imaging(const cJSON *payload, const char *name,
 static int read_limits(const cJSON *payload, const char *name,
                        mb_part_model *pm, char *err)
 {
-    const cJSON *o = cJSON_GetObjectItemCaseSensitive(payload, "limits");
+    const cJSON *o;
     const char *par = "payload.limits";
-    if (!o)
-        return MB_OK;
-    if (!cJSON_IsObject(o))
-        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+    int present = optional_section(payload, "limits", name, par, &o, err);
+    if (present <= 0)
+        return present;
     mb_limits *l = &pm->limits;
     int n = mb_shape_model_layout(pm->shape)->n_points;
     int k = mb_shape_model_n_modes(pm->shape), rc;
@@ -278,12 +290,11 @@ static int read_limits(const cJSON *payload, const char *name,
 static int read_profiles(const cJSON *payload, const char *name,
                          mb_part_model *pm, char *err)
 {
-    const cJSON *o = cJSON_GetObjectItemCaseSensitive(payload, "profiles");
+    const cJSON *o;
     const char *par = "payload.profiles";
-    if (!o)
-        return MB_OK;
-    if (!cJSON_IsObject(o))
-        return mb_err_set(err, MB_EFORMAT, "%s: %s: expected an object", name, par);
+    int present = optional_section(payload, "profiles", name, par, &o, err);
+    if (present <= 0)
+        return present;
     const mb_layout *layout = mb_shape_model_layout(pm->shape);
     mb_profile_params pp;
     mb_profile_stats st;
