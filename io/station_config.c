@@ -288,19 +288,29 @@ static int read_camera(const reader *r, const cJSON *root,
     return MB_OK;
 }
 
+/* A required top-level array of 1..max items: its item and count, or a
+   sentence naming it. */
+static int required_array(const reader *r, const cJSON *root, const char *key,
+                          const char *what, int max, const cJSON **arr, int *n)
+{
+    int rc = mb_json_member(root, r->name, "", key, MB_JSON_ARRAY, arr, r->err);
+    if (rc < 0)
+        return rc;
+    *n = cJSON_GetArraySize(*arr);
+    if (*n < 1 || *n > max)
+        return mb_err_set(r->err, MB_EFORMAT, "%s: %s: expected 1 to %d %s, found %d",
+                          r->name, key, max, what, *n);
+    return MB_OK;
+}
+
 static int read_slots(const reader *r, const cJSON *root,
                       mb_station_config *cfg)
 {
     const cJSON *arr, *it;
-    int rc;
-    if ((rc = mb_json_member(root, r->name, "", "slots", MB_JSON_ARRAY, &arr,
-                             r->err)) < 0)
+    int rc, n;
+    if ((rc = required_array(r, root, "slots", "part slots", MB_STATION_MAX_SLOTS,
+                             &arr, &n)) < 0)
         return rc;
-    int n = cJSON_GetArraySize(arr);
-    if (n < 1 || n > MB_STATION_MAX_SLOTS)
-        return mb_err_set(r->err, MB_EFORMAT,
-                          "%s: slots: expected 1 to %d part slots, found %d",
-                          r->name, MB_STATION_MAX_SLOTS, n);
     int i = 0;
     cJSON_ArrayForEach(it, arr)
     {
@@ -446,15 +456,10 @@ static int read_shifts(const reader *r, const cJSON *root,
                        mb_station_config *cfg)
 {
     const cJSON *arr, *it;
-    int rc;
-    if ((rc = mb_json_member(root, r->name, "", "shifts", MB_JSON_ARRAY, &arr,
-                             r->err)) < 0)
+    int rc, n;
+    if ((rc = required_array(r, root, "shifts", "shifts", MB_SHIFT_MAX, &arr,
+                             &n)) < 0)
         return rc;
-    int n = cJSON_GetArraySize(arr);
-    if (n < 1 || n > MB_SHIFT_MAX)
-        return mb_err_set(r->err, MB_EFORMAT,
-                          "%s: shifts: expected 1 to %d shifts, found %d",
-                          r->name, MB_SHIFT_MAX, n);
     mb_shift_def defs[MB_SHIFT_MAX];
     int i = 0;
     cJSON_ArrayForEach(it, arr)
