@@ -108,6 +108,11 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     mb_plc_get_map(plc, &m);
     MB_ASSERT(m.block[3] != MB_PLC_PASS || last_verdict == MB_PLC_PASS);
     MB_ASSERT(!(m.block[1] & MB_PLC_ST_PASS) || m.block[3] == MB_PLC_PASS);
+    /* close with a reset, not FIN: a normal close leaves this side's port
+       in TIME_WAIT, and tens of thousands of inputs would use up the
+       ephemeral ports (connect then fails for reasons not the server's) */
+    struct linger lg = {1, 0};
+    setsockopt(fd, SOL_SOCKET, SO_LINGER, &lg, sizeof lg);
     close(fd);
     /* let the server see the close so the connection slot frees */
     for (int i = 0; i < 200 && mb_plc_connected(plc) > 0; i++)
