@@ -14,6 +14,7 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <netinet/in.h>
+#include <poll.h>
 #include <stddef.h>
 #include <stdint.h>
 #include <string.h>
@@ -40,6 +41,28 @@ static void act(uint8_t pick)
         int rc = mb_plc_publish(plc, &r);
         last_verdict = rc == 0 ? (int)r.verdict : MB_PLC_FAULT;
     }
+}
+
+/* Connect without blocking: libFuzzer's -timeout watchdog raises SIGALRM
+   every timeout/2 + 1 s, and a blocking connect() it interrupts fails with
+   EINTR (connect is not restarted). Returns 0 when connected. */
+static int connect_loopback(int fd, const struct sockaddr_in *a)
+{
+    fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) | O_NONBLOCK);
+    if (connect(fd, (const struct sockaddr *)a, sizeof *a) == 0)
+        return 0;
+    if (errno != EINPROGRESS && errno != EINTR)
+        return -1;
+    struct pollfd p = {.fd = fd, .events = POLLOUT};
+    int rc;
+    do
+        rc = poll(&p, 1, 5000);
+    while (rc < 0 && errno == EINTR);
+    int soerr = 0;
+    socklen_t sl = sizeof soerr;
+    if (rc != 1 || getsockopt(fd, SOL_SOCKET, SO_ERROR, &soerr, &sl) < 0)
+        return -1;
+    return soerr == 0 ? 0 : -1;
 }
 
 /* Check every complete reply in buf; returns the bytes consumed. */
@@ -75,8 +98,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     struct sockaddr_in a = {.sin_family = AF_INET,
                             .sin_port = htons((uint16_t)mb_plc_port(plc))};
     a.sin_addr.s_addr = htonl(INADDR_LOOPBACK);
-    MB_ASSERT(connect(fd, (struct sockaddr *)&a, sizeof a) == 0);
-    fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) | O_NONBLOCK);
+    MB_ASSERT(connect_loopback(fd, &a) == 0);
     static uint8_t in[1 << 16];
     size_t have = 0, sent = 0;
     int closed = 0, quiet = 0;
@@ -85,7 +107,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
             ssize_t k = send(fd, data + sent, size - sent, MSG_NOSIGNAL);
             if (k > 0)
                 sent += (size_t)k;
-            else if (k < 0 && errno != EAGAIN)
+            else if (k < 0 && errno != EAGAIN && errno != EINTR)
                 closed = 1;
         }
         mb_plc_service(plc, mb_plc_now_ms());
@@ -97,7 +119,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
             memmove(in, in + used, have - used);
             have -= used;
             quiet = 0;
-        } else if (k == 0 || (k < 0 && errno != EAGAIN)) {
+        } else if (k == 0 || (k < 0 && errno != EAGAIN && errno != EINTR)) {
             closed = 1; /* the server dropped us: garbage framing */
             quiet++;
         } else if (sent == size || closed) {

@@ -13,6 +13,15 @@ fi
 rm -rf "$scratch"
 mkdir -p "$scratch/corpus" "$scratch/artifacts"
 cp "$seeds"/* "$scratch/corpus/"
-exec "$fuzzer" -max_total_time="$secs" -timeout=10 -rss_limit_mb=1024 \
+rc=0
+"$fuzzer" -max_total_time="$secs" -timeout=10 -rss_limit_mb=1024 \
     -print_final_stats=1 -artifact_prefix="$scratch/artifacts/" \
-    "$scratch/corpus"
+    "$scratch/corpus" >"$scratch/log" 2>&1 || rc=$?
+cat "$scratch/log"
+if [ "$rc" -ne 0 ]; then
+    # the log's middle is often cut in CI output: repeat why at the end
+    echo "run_fuzz: $(basename "$fuzzer") failed (exit $rc); the cause:" >&2
+    grep -a -E "internal error|ERROR|SUMMARY|^[a-z_]+: |artifact_prefix" \
+        "$scratch/log" | grep -a -v -E "^#|^INFO" | head -20 >&2
+fi
+exit "$rc"
