@@ -562,22 +562,45 @@ static void render_layer(mb_synth *g, const mb_synth_polys *p, const double *xy,
                   g->cfg.blur_sigma, g->work);
 }
 
-/* Compose the frame: background, part, contamination, noise. */
+/* Compose the frame: background, part, contamination, noise; over the
+   whole frame, or with `over` only inside the window win (the rest of the
+   frame is left as it is) on the belt texture of empty frame `under`. */
+typedef struct {
+    const int *win;  /* x0, y0, x1, y1 (exclusive) */
+    uint64_t under;  /* the empty frame whose texture offset is used */
+} compose_over;
+
+static void texture_offset(const mb_synth *g, uint64_t index, int shot,
+                           mb_synth_rng *r, int *ox, int *oy)
+{
+    mb_synth_rng_seed(r, g->cfg.seed, MB_SYNTH_STREAM_NOISE, index, shot);
+    /* the belt moved since the last part: a new texture offset */
+    *ox = (int)(mb_synth_rng_u64(r) & (TEX_SIZE - 1));
+    *oy = (int)(mb_synth_rng_u64(r) & (TEX_SIZE - 1));
+}
+
 static void compose(mb_synth *g, mb_image *frame, uint64_t index, int shot,
-                    const mb_coverage *cp, const mb_coverage *cc)
+                    const mb_coverage *cp, const mb_coverage *cc,
+                    const compose_over *over)
 {
     const mb_synth_config *c = &g->cfg;
     mb_synth_rng r;
-    mb_synth_rng_seed(&r, c->seed, MB_SYNTH_STREAM_NOISE, index, shot);
+    int ox, oy;
+    if (over) {
+        texture_offset(g, over->under, 0, &r, &ox, &oy);
+        int unused_x, unused_y;
+        texture_offset(g, index, shot, &r, &unused_x, &unused_y);
+    } else {
+        texture_offset(g, index, shot, &r, &ox, &oy);
+    }
+    int x0 = over ? over->win[0] : 0, y0 = over ? over->win[1] : 0;
+    int x1 = over ? over->win[2] : c->width, y1 = over ? over->win[3] : c->height;
     int front = c->lighting == MB_SYNTH_FRONTLIT;
-    /* the belt moved since the last part: a new texture offset */
-    int ox = (int)(mb_synth_rng_u64(&r) & (TEX_SIZE - 1));
-    int oy = (int)(mb_synth_rng_u64(&r) & (TEX_SIZE - 1));
     int noisy = c->noise_sigma > 0;
     uint64_t bits = 0;
     int nbits = 0;
     float part = (float)g->grey_part, contam = (float)g->grey_contam;
-    for (int y = 0; y < c->height; y++) {
+    for (int y = y0; y < y1; y++) {
         const float *bg = g->bg + (size_t)y * (size_t)c->width;
         const float *il = g->illum + (size_t)y * (size_t)c->width;
         const float *tex =
@@ -589,7 +612,7 @@ static void compose(mb_synth *g, mb_image *frame, uint64_t index, int shot,
             ya ? cp->cells + (size_t)(y - cp->y0) * (size_t)cp->stride : NULL;
         const float *ac =
             yc ? cc->cells + (size_t)(y - cc->y0) * (size_t)cc->stride : NULL;
-        for (int x = 0; x < c->width; x++) {
+        for (int x = x0; x < x1; x++) {
             float v = bg[x];
             if (front)
                 v += il[x] * tex[(x + ox) & (TEX_SIZE - 1)];
@@ -644,7 +667,8 @@ static void fill_truth_header(const mb_synth *g, uint64_t index, int shot,
 /* One frame; `at` (px, angle; its scale is ignored) replaces the drawn
    placement when not NULL. */
 static int make_frame(mb_synth *g, uint64_t index, int shot, int defect,
-                      const mb_pose *at, mb_image *frame, mb_synth_truth *truth)
+                      const mb_pose *at, const uint64_t *under, mb_image *frame,
+                      mb_synth_truth *truth)
 {
     if (!g || !frame || !frame->pixels || shot < 0)
         return MB_EINVAL;
@@ -663,7 +687,8 @@ static int make_frame(mb_synth *g, uint64_t index, int shot, int defect,
     mb_synth_polys_clear(&g->part);
     mb_synth_polys_clear(&g->contam);
     if (defect == MB_SYNTH_EMPTY) {
-        compose(g, frame, index, shot, NULL, NULL);
+        if (!under) /* over an empty frame: nothing to draw */
+            compose(g, frame, index, shot, NULL, NULL, NULL);
         t->present = 0;
         t->in_view = 0;
         t->good = 0;
@@ -757,8 +782,13 @@ static int make_frame(mb_synth *g, uint64_t index, int shot, int defect,
     int has_contam = has_win && g->contam.n_outlines > 0;
     if (has_contam)
         render_layer(g, &g->contam, g->contam_xy, win, g->cov2, &cc);
-    compose(g, frame, index, shot, has_win ? &cp : NULL,
-            has_contam ? &cc : NULL);
+    if (!under) {
+        compose(g, frame, index, shot, has_win ? &cp : NULL,
+                has_contam ? &cc : NULL, NULL);
+    } else if (has_win) {
+        compose_over over = {win, *under};
+        compose(g, frame, index, shot, &cp, has_contam ? &cc : NULL, &over);
+    }
 
     /* truth */
     t->present = 1;
@@ -777,7 +807,7 @@ static int make_frame(mb_synth *g, uint64_t index, int shot, int defect,
 int mb_synth_make(mb_synth *g, uint64_t index, int shot, int defect,
                   mb_image *frame, mb_synth_truth *truth)
 {
-    return make_frame(g, index, shot, defect, NULL, frame, truth);
+    return make_frame(g, index, shot, defect, NULL, NULL, frame, truth);
 }
 
 int mb_synth_make_at(mb_synth *g, uint64_t index, int shot, int defect,
@@ -786,7 +816,16 @@ int mb_synth_make_at(mb_synth *g, uint64_t index, int shot, int defect,
 {
     if (!pose)
         return MB_EINVAL;
-    return make_frame(g, index, shot, defect, pose, frame, truth);
+    return make_frame(g, index, shot, defect, pose, NULL, frame, truth);
+}
+
+int mb_synth_make_over(mb_synth *g, uint64_t index, int shot, int defect,
+                       const mb_pose *pose, uint64_t under, mb_image *frame,
+                       mb_synth_truth *truth)
+{
+    if (!pose)
+        return MB_EINVAL;
+    return make_frame(g, index, shot, defect, pose, &under, frame, truth);
 }
 
 int mb_synth_next(mb_synth *g, mb_image *frame, mb_synth_truth *truth)

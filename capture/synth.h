@@ -241,6 +241,20 @@ int mb_synth_make_at(mb_synth *g, uint64_t index, int shot, int defect,
                      const mb_pose *pose, mb_image *frame,
                      mb_synth_truth *truth);
 
+/**
+ * mb_synth_make_at drawn over a frame that already holds the empty frame
+ * `under` (mb_synth_make(g, under, 0, MB_SYNTH_EMPTY, ...)): only the
+ * window around the part (its blur included) is composed, on the same belt
+ * texture and lighting, with noise drawn afresh from (index, shot); the
+ * rest of the frame is left as it is. Inside the window the pixels are
+ * those of mb_synth_make_at but for the noise draw and the belt texture
+ * offset (front lighting); the cost is that of the window, not of the
+ * frame. Truth as mb_synth_make_at.
+ */
+int mb_synth_make_over(mb_synth *g, uint64_t index, int shot, int defect,
+                       const mb_pose *pose, uint64_t under, mb_image *frame,
+                       mb_synth_truth *truth);
+
 /** The next part of the line: mb_synth_make(g, i++, 0, MB_SYNTH_DRAW, ...),
     starting at index 0. */
 int mb_synth_next(mb_synth *g, mb_image *frame, mb_synth_truth *truth);

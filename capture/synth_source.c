@@ -20,11 +20,15 @@
 
 /* Index space of the empty frames between slots (noise seeds only). */
 #define GAP_INDEX (UINT64_C(1) << 63)
+/* Empty belt frames rendered once at open; frame k starts as a copy of
+   empty frame k mod N_EMPTY and only the part's window is drawn over it. */
+#define N_EMPTY 4
 
 typedef struct {
     mb_synth_source_config cfg;
     mb_synth *g;
     mb_image frame;
+    mb_image empty[N_EMPTY];
     double radius;     /* R, px */
     double pitch;      /* px */
     double y_lo, y_hi; /* range of the lateral position, px */
@@ -62,33 +66,45 @@ static void slot_pose(const synth_src *s, uint64_t j, double *y, double *a)
     *a = mb_synth_rng_range(&r, 0, 2 * M_PI);
 }
 
-/* Render frame k into s->frame and its truth. */
+static void copy_pixels(const mb_image *from, mb_image *to)
+{
+    for (int y = 0; y < from->height; y++)
+        memcpy(to->pixels + (size_t)y * (size_t)to->stride,
+               from->pixels + (size_t)y * (size_t)from->stride,
+               (size_t)from->width);
+}
+
+/* Render frame k into s->frame and its truth: a copy of an empty belt
+   frame with the part's window drawn over it. */
 static int render(synth_src *s, uint64_t k)
 {
     const mb_synth_config *c = &s->cfg.synth;
+    uint64_t under = k % N_EMPTY;
+    copy_pixels(&s->empty[under], &s->frame);
+    under |= GAP_INDEX;
     double travel = s->cfg.speed_px * (double)k;
     uint64_t j = (uint64_t)floor(travel / s->pitch);
     double x = -s->radius + travel - s->pitch * (double)j;
     mb_synth_source_truth *t = &s->truth;
     t->frame = k;
+    mb_pose pose = {0, 0, 1.0 / c->mm_per_px, 0};
     if (x >= c->width + s->radius) {
         t->part = -1;
-        return mb_synth_make(s->g, GAP_INDEX | k, 0, MB_SYNTH_EMPTY, &s->frame,
-                             &t->truth);
+        return mb_synth_make_over(s->g, under, 0, MB_SYNTH_EMPTY, &pose,
+                                  under, &s->frame, &t->truth);
     }
     /* how many frames slot j was in the field before this one */
     double first = ceil((double)j * s->pitch / s->cfg.speed_px - 1e-9);
     double shot_d = (double)k - first;
     int shot = shot_d < 0 ? 0 : (shot_d > INT_MAX ? INT_MAX : (int)shot_d);
-    mb_pose pose = {0, 0, 1.0 / c->mm_per_px, 0};
     pose.tx = x;
     slot_pose(s, j, &pose.ty, &pose.angle);
     t->part = (int64_t)j;
-    int rc = mb_synth_make_at(s->g, j, shot, MB_SYNTH_DRAW, &pose, &s->frame,
-                              &t->truth);
+    int rc = mb_synth_make_over(s->g, j, shot, MB_SYNTH_DRAW, &pose, under,
+                                &s->frame, &t->truth);
     if (rc == MB_ERANGE) /* the drawn defect found no place: a good part */
-        rc = mb_synth_make_at(s->g, j, shot, MB_SYNTH_NONE, &pose, &s->frame,
-                              &t->truth);
+        rc = mb_synth_make_over(s->g, j, shot, MB_SYNTH_NONE, &pose, under,
+                                &s->frame, &t->truth);
     return rc;
 }
 
@@ -147,6 +163,8 @@ static void synth_close(void *impl)
         return;
     mb_synth_close(s->g);
     mb_image_free(&s->frame);
+    for (int i = 0; i < N_EMPTY; i++)
+        mb_image_free(&s->empty[i]);
     free(s);
 }
 
@@ -229,6 +247,18 @@ int mb_synth_source_open(const mb_synth_source_config *cfg, mb_source **out,
         mb_err_set(err, rc, "synthetic line: out of memory");
         goto fail;
     }
+    for (int i = 0; i < N_EMPTY; i++) {
+        rc = mb_image_alloc(s->cfg.synth.width, s->cfg.synth.height,
+                            &s->empty[i]);
+        if (rc == 0)
+            rc = mb_synth_make(s->g, GAP_INDEX | (uint64_t)i, 0, MB_SYNTH_EMPTY,
+                               &s->empty[i], NULL);
+        if (rc < 0) {
+            mb_err_set(err, rc, "synthetic line: the empty belt frames could "
+                                "not be made (%s)", mb_strerror(rc));
+            goto fail;
+        }
+    }
     rc = measure_radius(s, err);
     if (rc < 0)
         goto fail;
@@ -265,4 +295,12 @@ double mb_synth_source_radius(const mb_source *src)
         return 0;
     const synth_src *s = mb_source_impl(src);
     return s->radius;
+}
+
+double mb_synth_source_pitch(const mb_source *src)
+{
+    if (!src || mb_source_ops_of(src) != &synth_ops)
+        return 0;
+    const synth_src *s = mb_source_impl(src);
+    return s->pitch;
 }

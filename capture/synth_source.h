@@ -84,4 +84,7 @@ const mb_synth_source_truth *mb_synth_source_truth_of(const mb_source *src);
 /** R of the header comment, px: half the span of a part on the belt. */
 double mb_synth_source_radius(const mb_source *src);
 
+/** The distance between parts on the belt, px (pitch_px, or its default). */
+double mb_synth_source_pitch(const mb_source *src);
+
 #endif

@@ -356,6 +356,10 @@ int mb_locate_run(mb_locate *loc, const mb_pyramid *pyr,
         res->box[1] = (int)(best.y0 * cell);
         res->box[2] = (int)((best.x1 - best.x0 + 1) * cell);
         res->box[3] = (int)((best.y1 - best.y0 + 1) * cell);
+        res->edges = (best.x0 == 0 ? MB_EDGE_LEFT : 0) |
+                     (best.y0 == 0 ? MB_EDGE_TOP : 0) |
+                     (best.x1 == w - 1 ? MB_EDGE_RIGHT : 0) |
+                     (best.y1 == h - 1 ? MB_EDGE_BOTTOM : 0);
     }
     if (res->area < loc->p.min_area * loc->taught_area ||
         res->area > loc->p.max_area * loc->taught_area)

@@ -95,7 +95,12 @@ typedef struct {
     double other_area; /**< the largest other component, px^2 */
     int box[4];        /**< part bounding box x, y, width, height, full-res
                             px (rounded to 2^level) */
+    int edges;         /**< frame edges the part region touches: MB_EDGE_*
+                            bits (0 when wholly inside) */
 } mb_locate_result;
+
+/* Bits of mb_locate_result.edges. */
+enum { MB_EDGE_LEFT = 1, MB_EDGE_TOP = 2, MB_EDGE_RIGHT = 4, MB_EDGE_BOTTOM = 8 };
 
 typedef struct mb_locate mb_locate;
 

@@ -67,7 +67,8 @@ enum {
     FAULT_NO_FIT = 4,
     FAULT_OVERTIME = 5,
     FAULT_INTERNAL = 6,
-    FAULT_FRAME = 7
+    FAULT_FRAME = 7,
+    FAULT_UNSEEN = 8
 };
 
 #define MAX_CHARTS (2 + MB_STATION_MAX_MODES + MB_MAX_GAUGES)
@@ -109,7 +110,10 @@ struct mb_station {
     uint64_t max_parts;
     mb_station_stats stats;
     uint32_t seq;
-    int counted;          /* free run: the part in view was counted */
+    int free_state;       /* free run: FREE_* of the part in view */
+    int upstream;         /* free run: edges parts enter by (MB_EDGE_*) */
+    int crowded;          /* free run: the last frame showed two parts */
+    double last_x, last_y; /* free run: where the inspected part was seen */
     int trig_pending;
     int64_t trig_ns;
     int ready_sent;
@@ -304,7 +308,13 @@ static int open_camera(mb_station *st, char *err)
         int rc = mb_station_config_synth(cfg, &sc);
         if (rc < 0)
             return mb_err_set(err, rc, "camera.synth: unknown part family");
-        return mb_synth_source_open(&sc, &st->src, err);
+        rc = mb_synth_source_open(&sc, &st->src, err);
+        if (rc == 0)
+            say(6, "synthetic line: a part every %.0f px, the belt "
+                "moving %.0f px per frame: %.2f frames per part",
+                mb_synth_source_pitch(st->src), sc.speed_px,
+                mb_synth_source_pitch(st->src) / sc.speed_px);
+        return rc;
     }
     mb_replay_config rc;
     mb_replay_config_default(&rc);
@@ -524,9 +534,10 @@ static void report_part(mb_station *st, slot_rt *s, const mb_verdict *v,
         st->stats.cycle_ms_max = cycle_ms;
 }
 
-/* A fault without an image: camera lost or timed out, no model. */
+/* A fault without an image: camera lost or timed out, no model, a part
+   not inspected. frame_seq: the frame it was found on, or 0. */
 static void report_fault(mb_station *st, mb_reason_code code, const char *text,
-                         int fault_code, double cycle_ms)
+                         int fault_code, double cycle_ms, uint64_t frame_seq)
 {
     mb_verdict v;
     memset(&v, 0, sizeof v);
@@ -534,7 +545,22 @@ static void report_fault(mb_station *st, mb_reason_code code, const char *text,
     v.n_reasons = 1;
     v.reasons[0].code = code;
     snprintf(v.reasons[0].text, sizeof v.reasons[0].text, "%s", text);
-    report_part(st, &st->slots[st->active], &v, NULL, 0, cycle_ms, fault_code);
+    report_part(st, &st->slots[st->active], &v, NULL, frame_seq, cycle_ms,
+                fault_code);
+}
+
+/* A pass that came too late to be trusted becomes a fault, never a pass;
+   returns its fault code, or 0 when the verdict stands. */
+static int overtime(mb_verdict *v, double cycle_ms, int limit_ms)
+{
+    if (cycle_ms <= limit_ms || v->verdict != MB_VERDICT_PASS)
+        return 0;
+    v->verdict = MB_VERDICT_FAULT;
+    v->n_reasons = 1;
+    v->reasons[0].code = MB_REASON_INTERNAL;
+    snprintf(v->reasons[0].text, sizeof v->reasons[0].text,
+             "inspection took %.1f ms, over its %d ms limit", cycle_ms, limit_ms);
+    return FAULT_OVERTIME;
 }
 
 /* Inspect one frame and report it. t0_ns: trigger or frame time. */
@@ -546,21 +572,115 @@ static void inspect_frame(mb_station *st, const mb_frame *f, int64_t t0_ns,
         char text[200];
         snprintf(text, sizeof text, "no usable model for part slot %d: %.150s",
                  s->slot, s->error);
-        report_fault(st, MB_REASON_MODEL, text, FAULT_NO_MODEL, 0);
+        report_fault(st, MB_REASON_MODEL, text, FAULT_NO_MODEL, 0, f->seq);
         return;
     }
     mb_inspector_run(s->ins, &f->view, v);
     double cycle = (double)(mono_ns() - t0_ns) / 1e6;
-    if (cycle > st->cfg.inspection_timeout_ms && v->verdict == MB_VERDICT_PASS) {
-        /* too late to be trusted as a pass: a fault, never a pass */
-        v->verdict = MB_VERDICT_FAULT;
-        v->n_reasons = 1;
-        v->reasons[0].code = MB_REASON_INTERNAL;
-        snprintf(v->reasons[0].text, sizeof v->reasons[0].text,
-                 "inspection took %.1f ms, over its %d ms limit", cycle,
-                 st->cfg.inspection_timeout_ms);
+    int fc = overtime(v, cycle, st->cfg.inspection_timeout_ms);
+    report_part(st, s, v, &f->view, f->seq, cycle, fc);
+}
+
+/* Free run: every frame is looked at (pyramid and presence, the cheap
+   half), and each part is inspected once, on the first frame that shows it
+   whole. Which part is which comes from the frame edges it touches: a part
+   enters across the upstream edge (learnt from the parts seen entering)
+   and leaves across another. A part that crosses the field with no frame
+   showing it whole, or enters while the last one is still in view, is a
+   fault: it was never inspected and must not go on as if it passed. */
+enum { FREE_NONE, FREE_ENTERING, FREE_DONE, FREE_LEAVING };
+
+static void unseen(mb_station *st, const mb_frame *f, mb_reason_code code,
+                   const char *text)
+{
+    report_fault(st, code, text, FAULT_UNSEEN, 0, f->seq);
+}
+static void free_run_frame(mb_station *st, const mb_frame *f, mb_verdict *v)
+{
+    slot_rt *s = &st->slots[st->active];
+    if (!s->ins) {
+        inspect_frame(st, f, f->t_ns, v);
+        return;
     }
-    report_part(st, s, v, &f->view, f->seq, cycle, 0);
+    int whole = mb_inspector_look(s->ins, &f->view, v);
+    mb_reason_code c = v->n_reasons ? v->reasons[0].code : MB_REASON_NONE;
+    int edges = mb_inspector_located(s->ins)->edges;
+    int up = st->upstream;
+    /* touching an edge other than the upstream one: on its way out */
+    int out = up && (edges & ~up);
+    int two = c == MB_REASON_TWO_PARTS, was_two = st->crowded;
+    st->crowded = two;
+    if (c == MB_REASON_NO_PART) {
+        if (st->free_state == FREE_ENTERING)
+            unseen(st, f, MB_REASON_OFF_EDGE,
+                   "a part crossed the field and no frame showed it whole: it "
+                   "was not inspected (the camera is too slow for the belt, or "
+                   "the part lay across the edge)");
+        st->free_state = FREE_NONE;
+        return;
+    }
+    if (c == MB_REASON_OFF_EDGE) {
+        switch (st->free_state) {
+        case FREE_NONE:
+            st->upstream = edges;
+            st->free_state = FREE_ENTERING;
+            break;
+        case FREE_ENTERING:
+            if (out) {
+                unseen(st, f, MB_REASON_OFF_EDGE,
+                       "a part crossed the field and no frame showed it whole: "
+                       "it was not inspected (the camera is too slow for the "
+                       "belt, or the part lay across the edge)");
+                st->free_state = FREE_LEAVING;
+            }
+            break;
+        case FREE_DONE:
+            /* the inspected part leaving, or (gone between two frames) the
+               next one entering across the upstream edge */
+            st->free_state = up && !out ? FREE_ENTERING : FREE_LEAVING;
+            break;
+        default: /* FREE_LEAVING: still leaving, or the next one entering */
+            if (up && !out)
+                st->free_state = FREE_ENTERING;
+            break;
+        }
+        return;
+    }
+    const mb_locate_result *lr = mb_inspector_located(s->ins);
+    if (st->free_state == FREE_DONE && !two && up && lr->area > 0) {
+        /* whole again: the same part, or (the last one gone between two
+           frames) the next one, upstream of where the last one was */
+        double dx = (up & MB_EDGE_LEFT ? 1 : 0) - (up & MB_EDGE_RIGHT ? 1 : 0);
+        double dy = (up & MB_EDGE_TOP ? 1 : 0) - (up & MB_EDGE_BOTTOM ? 1 : 0);
+        double along = (lr->x - st->last_x) * dx + (lr->y - st->last_y) * dy;
+        double size = fabs(dx) * lr->box[2] + fabs(dy) * lr->box[3];
+        if (along < -0.25 * size)
+            st->free_state = FREE_ENTERING;
+    }
+    if (st->free_state == FREE_DONE) {
+        st->last_x = lr->x;
+        st->last_y = lr->y;
+        /* the inspected part still whole; a second one entering already */
+        if (two && !was_two)
+            unseen(st, f, MB_REASON_TWO_PARTS,
+                   "a part entered before the one inspected had left: it is "
+                   "not inspected (free run needs the parts spaced so that "
+                   "one has left before the next enters)");
+        return;
+    }
+    if (two && st->free_state == FREE_LEAVING) {
+        st->free_state = FREE_ENTERING; /* the next one is on its way in */
+        return;
+    }
+    /* a part wholly in view (or two parts) and not inspected yet */
+    st->free_state = FREE_DONE;
+    st->last_x = lr->x;
+    st->last_y = lr->y;
+    if (whole == 1)
+        mb_inspector_finish(s->ins, v);
+    double cycle = v->ms; /* both halves; the frame waited for nothing */
+    int fc = overtime(v, cycle, st->cfg.inspection_timeout_ms);
+    report_part(st, s, v, &f->view, f->seq, cycle, fc);
 }
 
 static void camera_lost(mb_station *st, int rc, const char *why, int64_t now)
@@ -805,7 +925,7 @@ int mb_station_run(mb_station *st)
         }
         if (st->cfg.trigger == MB_TRIGGER_PLC && st->trig_pending && !st->cam_ok) {
             report_fault(st, MB_REASON_FRAME, "camera lost: no frame to inspect",
-                         FAULT_CAMERA_LOST, 0);
+                         FAULT_CAMERA_LOST, 0, 0);
             st->trig_pending = 0;
             continue;
         }
@@ -824,7 +944,7 @@ int mb_station_run(mb_station *st)
                 (mono_ns() - st->trig_ns) / 1000000 > st->cfg.frame_timeout_ms) {
                 report_fault(st, MB_REASON_FRAME, "no frame from the camera in time",
                              FAULT_CAMERA_TIMEOUT,
-                             (double)(mono_ns() - st->trig_ns) / 1e6);
+                             (double)(mono_ns() - st->trig_ns) / 1e6, 0);
                 st->trig_pending = 0;
             }
             continue;
@@ -844,26 +964,9 @@ int mb_station_run(mb_station *st)
         case MB_TRIGGER_EVERY:
             inspect_frame(st, &f, f.t_ns, &v);
             break;
-        case MB_TRIGGER_FREE: {
-            /* each part once: the first frame that shows it whole */
-            slot_rt *s = &st->slots[st->active];
-            if (!s->ins) {
-                inspect_frame(st, &f, f.t_ns, &v);
-                break;
-            }
-            int64_t t0 = mono_ns();
-            mb_inspector_run(s->ins, &f.view, &v);
-            mb_reason_code c = v.n_reasons ? v.reasons[0].code : MB_REASON_NONE;
-            if (c == MB_REASON_NO_PART || c == MB_REASON_OFF_EDGE) {
-                st->counted = 0; /* between parts */
-                break;
-            }
-            if (st->counted)
-                break;
-            st->counted = 1;
-            report_part(st, s, &v, &f.view, f.seq, (double)(mono_ns() - t0) / 1e6, 0);
+        case MB_TRIGGER_FREE:
+            free_run_frame(st, &f, &v);
             break;
-        }
         }
         if (st->max_parts && st->stats.parts >= st->max_parts)
             stop = 1;

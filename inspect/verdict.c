@@ -43,6 +43,9 @@ struct mb_inspector {
     double mean_cx, mean_cy;  /* centroid of the mean shape (model frame) */
     double *mean_angle;       /* n: angle of each landmark on the part, deg */
     mb_calib cal;             /* the calibration (p.calib points here) */
+    mb_locate_result lr;      /* where look() found the part */
+    int looked;               /* lr is of the frame in the pyramid */
+    mb_image frame;           /* that frame (a view) */
 };
 
 static const char *const reason_names[] = {
@@ -683,18 +686,13 @@ static void reject_presence(mb_verdict *v, mb_reason_code c, const char *text)
         snprintf(r->text, sizeof r->text, "%s", text);
 }
 
-int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
+/* The first half of an inspection: the frame's size, the pyramid, where
+   the part is. Returns 1 when a part was located (ins->lr), 0 when v is
+   final (no part, off the edge, two parts, a fault). */
+static int look(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
 {
-    if (!ins || !frame || !v)
-        return MB_EINVAL;
-    double t0 = now_ms();
-    const mb_part_model *pm = ins->pm;
-    const mb_limits *lim = &pm->limits;
     memset(v, 0, sizeof *v);
-    v->layout = mb_shape_model_layout(pm->shape);
-    double mm = ins->p.mm_per_px;
-    const char *unit = mm > 0 ? "mm" : "px";
-    double u = mm > 0 ? mm : 1.0;
+    v->layout = mb_shape_model_layout(ins->pm->shape);
     char text[200];
 
     if (!frame->pixels || frame->width != ins->w || frame->height != ins->h) {
@@ -702,40 +700,56 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
                  "frame is %dx%d px but the model was taught on %dx%d px frames",
                  frame->width, frame->height, ins->w, ins->h);
         fault(v, MB_REASON_FRAME, text);
-        goto done;
+        return 0;
     }
+    ins->frame = *frame;
+    memset(&ins->lr, 0, sizeof ins->lr);
     if (mb_pyramid_build(ins->pyr, frame) < 0) {
         fault(v, MB_REASON_INTERNAL, "the image pyramid could not be built");
-        goto done;
+        return 0;
     }
-    mb_locate_result lr;
-    int rc = mb_locate_run(ins->loc, ins->pyr, &lr);
+    mb_locate_result *lr = &ins->lr;
+    int rc = mb_locate_run(ins->loc, ins->pyr, lr);
     if (rc == MB_ENOPART) {
         reject_presence(v, MB_REASON_NO_PART, "no part in view");
-        goto done;
+        return 0;
     }
     if (rc == MB_EEDGE) {
         reject_presence(v, MB_REASON_OFF_EDGE,
                         "the part is cut by the frame edge (not fully in view)");
-        goto done;
+        return 0;
     }
     if (rc == MB_EMULTIPLE) {
         snprintf(text, sizeof text, "%d parts in view; one part per frame expected",
-                 lr.n_parts);
+                 lr->n_parts);
         reject_presence(v, MB_REASON_TWO_PARTS, text);
-        goto done;
+        return 0;
     }
     if (rc < 0) {
         snprintf(text, sizeof text, "locating the part failed: %s", mb_strerror(rc));
         fault(v, MB_REASON_INTERNAL, text);
-        goto done;
+        return 0;
     }
+    return 1;
+}
+
+/* The second half: fit the model where look() found the part, and judge. */
+static void judge(mb_inspector *ins, mb_verdict *v)
+{
+    const mb_part_model *pm = ins->pm;
+    const mb_limits *lim = &pm->limits;
+    double mm = ins->p.mm_per_px;
+    const char *unit = mm > 0 ? "mm" : "px";
+    double u = mm > 0 ? mm : 1.0;
+    char text[200];
+    int rc;
     mb_asm_result res;
-    rc = mb_asm_search(ins->search, ins->pyr, lr.candidates, lr.n_candidates, &res);
+    rc = mb_asm_search(ins->search, ins->pyr, ins->lr.candidates, ins->lr.n_candidates,
+                       &res);
     if (rc < 0) {
         snprintf(text, sizeof text, "the model search failed: %s", mb_strerror(rc));
         fault(v, MB_REASON_INTERNAL, text);
-        goto done;
+        return;
     }
     v->converged = res.converged;
     v->pose = res.pose;
@@ -763,7 +777,7 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
     mb_pose al;
     if (mb_procrustes_fit(ins->target, mean, n, NULL, &al, NULL) < 0) {
         fault(v, MB_REASON_INTERNAL, "the measured outline is degenerate");
-        goto done;
+        return;
     }
     mb_pose_apply(&al, ins->target, n, ins->y);
     double ym = 0, mm2 = 0;
@@ -824,7 +838,7 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
                      fabs(v->size_px - edge) * u, unit);
     }
     judge_local(ins, &res, v);
-    judge_beyond(ins, frame, &res, v);
+    judge_beyond(ins, &ins->frame, &res, v);
     if (pm->n_gauges > 0 && (mm > 0 || ins->p.calib)) {
         /* On the conveyor plane: through the calibration when there is
            one (perspective and lens distortion removed), else one scale. */
@@ -894,12 +908,55 @@ int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
                      "found an edge)%s", res.n_valid, n,
                      judged ? "" : "; treated as a fault, never a pass");
         v->verdict = judged ? MB_VERDICT_REJECT : MB_VERDICT_FAULT;
-        goto done;
+        return;
     }
     v->verdict = v->n_reasons ? MB_VERDICT_REJECT : MB_VERDICT_PASS;
-done:
+}
+
+static void seal(const mb_verdict *v)
+{
     MB_ASSERT(v->verdict != MB_VERDICT_PASS || (v->converged && v->n_reasons == 0));
     MB_ASSERT(v->verdict == MB_VERDICT_PASS || v->n_reasons > 0);
+}
+
+int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
+{
+    if (!ins || !frame || !v)
+        return MB_EINVAL;
+    double t0 = now_ms();
+    ins->looked = 0;
+    if (look(ins, frame, v))
+        judge(ins, v);
+    seal(v);
+    v->ms = now_ms() - t0;
+    return MB_OK;
+}
+
+int mb_inspector_look(mb_inspector *ins, const mb_image *frame, mb_verdict *v)
+{
+    if (!ins || !frame || !v)
+        return MB_EINVAL;
+    double t0 = now_ms();
+    ins->looked = look(ins, frame, v);
+    if (!ins->looked)
+        seal(v);
+    v->ms = now_ms() - t0;
+    return ins->looked;
+}
+
+const mb_locate_result *mb_inspector_located(const mb_inspector *ins)
+{
+    return ins ? &ins->lr : NULL;
+}
+
+int mb_inspector_finish(mb_inspector *ins, mb_verdict *v)
+{
+    if (!ins || !v || !ins->looked)
+        return MB_EINVAL;
+    double t0 = now_ms() - v->ms;
+    ins->looked = 0;
+    judge(ins, v);
+    seal(v);
     v->ms = now_ms() - t0;
     return MB_OK;
 }

@@ -153,6 +153,24 @@ void mb_inspector_close(mb_inspector *ins);
 int mb_inspector_run(mb_inspector *ins, const mb_image *frame, mb_verdict *v);
 
 /**
+ * mb_inspector_run in two halves, for a free-running camera that looks at
+ * many frames and inspects few: mb_inspector_look builds the pyramid and
+ * finds the part (the cheap half); it returns 1 when a part lies wholly in
+ * view and mb_inspector_finish may fit and judge it, or 0 when v is
+ * already final (no part, cut by the edge, two parts, a fault).
+ * mb_inspector_finish must follow that look, with the frame unchanged; v
+ * is then as mb_inspector_run's (v->ms counts both halves). Allocate
+ * nothing. Return value: look 1 or 0, finish 0; MB_EINVAL for NULL
+ * arguments, and for finish without a look that found a part.
+ */
+int mb_inspector_look(mb_inspector *ins, const mb_image *frame, mb_verdict *v);
+int mb_inspector_finish(mb_inspector *ins, mb_verdict *v);
+
+/** What the last look or run found of the part (position, box, the frame
+    edges it touches); valid until the next look or run. NULL for NULL. */
+const mb_locate_result *mb_inspector_located(const mb_inspector *ins);
+
+/**
  * Write the picture of an inspection (io/overlay.h) to path: the frame,
  * the model and measured outlines, a ring around every located reason.
  * ring_px > 0 gives every ring that radius; 0 sizes each ring by the

@@ -319,15 +319,22 @@ static void test_drop_late_and_max_frames(void **state)
 
 /* mb_synth_make_at at the pose mb_synth_make drew gives the same frame:
    same part, defect and noise, only the placement is the caller's. */
-static void test_make_at_matches_make(void **state)
+/* A 400 x 400 px flange line at 0.15 mm per px. */
+static mb_synth_config small_flange(double defect_rate)
 {
-    (void)state;
     mb_synth_config c;
     mb_synth_config_default(&c, MB_SYNTH_FLANGE);
     c.width = 400;
     c.height = 400;
     c.mm_per_px = 0.15;
-    c.defect_rate = 0.7;
+    c.defect_rate = defect_rate;
+    return c;
+}
+
+static void test_make_at_matches_make(void **state)
+{
+    (void)state;
+    mb_synth_config c = small_flange(0.7);
     mb_synth *g = NULL;
     char err[MB_ERR_LEN] = "";
     assert_int_equal(mb_synth_open(&c, &g, err), 0);
@@ -379,6 +386,101 @@ static void test_make_at_matches_make(void **state)
     mb_synth_close(g);
 }
 
+/* Drawing over an empty frame: outside the part's window the empty frame
+   is kept. Without noise, back-lit, the frame is mb_synth_make_at's pixel
+   for pixel; front-lit (the belt texture is the empty frame's) the part's
+   interior, where the texture is covered, is. With noise, the window's
+   noise is a fresh draw: the pixels differ from make_at's by noise only. */
+static void test_make_over_draws_only_the_window(void **state)
+{
+    (void)state;
+    for (int run = 0; run < 3; run++) {
+        int light = run == 1, noisy = run == 2;
+        mb_synth_config c = small_flange(0.5);
+        c.lighting = light ? MB_SYNTH_FRONTLIT : MB_SYNTH_BACKLIT;
+        c.noise_sigma = noisy ? 2 : 0;
+        mb_synth *g = NULL;
+        char err[MB_ERR_LEN] = "";
+        assert_int_equal(mb_synth_open(&c, &g, err), 0);
+        mb_image a, e, b;
+        assert_int_equal(mb_image_alloc(400, 400, &a), 0);
+        assert_int_equal(mb_image_alloc(400, 400, &e), 0);
+        assert_int_equal(mb_image_alloc(400, 400, &b), 0);
+        const uint64_t under = UINT64_C(1) << 62;
+        assert_int_equal(mb_synth_make(g, under, 0, MB_SYNTH_EMPTY, &e, NULL), 0);
+        for (uint64_t i = 0; i < 6; i++) {
+            mb_synth_truth ta, tb;
+            assert_int_equal(mb_synth_make(g, i, 1, MB_SYNTH_DRAW, &a, &ta), 0);
+            mb_pose pose = ta.pose;
+            for (int y = 0; y < 400; y++)
+                memcpy(b.pixels + (size_t)y * b.stride,
+                       e.pixels + (size_t)y * e.stride, 400);
+            assert_int_equal(mb_synth_make_over(g, i, 1, MB_SYNTH_DRAW, &pose,
+                                                under, &b, &tb),
+                             0);
+            assert_int_equal(ta.defect.type, tb.defect.type);
+            assert_int_equal(ta.present, tb.present);
+            /* the part's reach: its outline points' bounding box */
+            double box[4] = {1e9, -1e9, 1e9, -1e9};
+            int n = 0;
+            for (int o = 0; o < tb.outlines.n_outlines; o++)
+                n += tb.outlines.counts[o];
+            for (int k = 0; tb.present && k < n; k++) {
+                box[0] = fmin(box[0], tb.outlines.xy[2 * k]);
+                box[1] = fmax(box[1], tb.outlines.xy[2 * k]);
+                box[2] = fmin(box[2], tb.outlines.xy[2 * k + 1]);
+                box[3] = fmax(box[3], tb.outlines.xy[2 * k + 1]);
+            }
+            long same_a = 0, far_kept = 0, far = 0, inside = 0, n_near = 0;
+            double abs_diff = 0;
+            for (int y = 0; y < 400; y++)
+                for (int x = 0; x < 400; x++) {
+                    uint8_t pa = a.pixels[(size_t)y * a.stride + x];
+                    uint8_t pb = b.pixels[(size_t)y * b.stride + x];
+                    uint8_t pe = e.pixels[(size_t)y * e.stride + x];
+                    /* 3 mm room for contamination, 8 px for the blur */
+                    double m = 3.0 / c.mm_per_px + 8;
+                    int near = tb.present && x > box[0] - m && x < box[1] + m &&
+                               y > box[2] - m && y < box[3] + m;
+                    if (!near) {
+                        far++;
+                        far_kept += pb == pe;
+                        continue;
+                    }
+                    n_near++;
+                    abs_diff += abs((int)pb - (int)pa);
+                    if (noisy) {
+                        continue;
+                    } else if (!light) {
+                        assert_int_equal(pb, pa);
+                        same_a += pb != pe;
+                    } else if (pa > 120) {
+                        /* front-lit part (grey 150 x lighting, belt 72):
+                           the texture is covered, so make_at's pixel */
+                        inside++;
+                        same_a += pb == pa;
+                    }
+                }
+            assert_int_equal(far_kept, far);
+            if (tb.present && !light && !noisy)
+                assert_true(same_a > 1000); /* the part was drawn */
+            /* two draws of N(0, 2): mean |difference| 2 x 2 / sqrt(pi) =
+               2.26 grey levels (rounding adds a little) */
+            if (tb.present && noisy)
+                assert_true(abs_diff / (double)n_near > 1.5 &&
+                            abs_diff / (double)n_near < 3.2);
+            if (tb.present && light) {
+                assert_true(inside > 1000);
+                assert_true(same_a >= 0.95 * (double)inside);
+            }
+        }
+        mb_image_free(&a);
+        mb_image_free(&e);
+        mb_image_free(&b);
+        mb_synth_close(g);
+    }
+}
+
 static void test_bad_configs(void **state)
 {
     (void)state;
@@ -414,6 +516,7 @@ int main(void)
         cmocka_unit_test(test_pacing_and_timeout),
         cmocka_unit_test(test_drop_late_and_max_frames),
         cmocka_unit_test(test_make_at_matches_make),
+        cmocka_unit_test(test_make_over_draws_only_the_window),
         cmocka_unit_test(test_bad_configs),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -123,17 +123,35 @@ bad_lines=$(cat "$tmp"/logs/*.jsonl | grep -v '^{.*}$' | wc -l)
 [ "$(records)" -ge $((after_kill + 5)) ] && ok || bad "the log did not go on after the restart"
 
 # 5. free-running camera on the synthetic line (parts travel across the
-#    field): each part is inspected and counted exactly once
-rm -rf "$tmp/logs"
-write_config "$tmp/station.json" '{"source": "synth", "width": 640, "height": 512, "synth": {"family": "ring", "seed": 5, "defect_rate": 0, "speed_px": 40, "fps": 0}}' free
-"$mb" run --config "$tmp/station.json" --parts 6 >/dev/null 2>"$tmp/err5.txt"
-[ $? -eq 0 ] && ok || { bad "free run"; tail -5 "$tmp/err5.txt"; }
-n=$(records)
-[ "$n" -eq 6 ] && ok || bad "free run logged $n parts, 6 expected"
-# one record per part: frame numbers far enough apart that no part is seen twice
+#    field): each part is inspected and counted exactly once. The station
+#    says how many frames each part spends crossing (F); N records up to
+#    frame L must be one per part: N = L / F within 2 (a part counted twice,
+#    or one lost, moves N by a whole part per crossing).
+free_run() { # $1 speed px/frame, $2 parts; sets n, L, F, faults, passes
+    rm -rf "$tmp/logs"
+    write_config "$tmp/station.json" '{"source": "synth", "width": 640, "height": 512, "synth": {"family": "ring", "seed": 5, "defect_rate": 0, "speed_px": '"$1"', "fps": 0}}' free
+    "$mb" run --config "$tmp/station.json" --parts "$2" >/dev/null 2>"$tmp/err5.txt"
+    [ $? -eq 0 ] && ok || { bad "free run at $1 px per frame"; tail -5 "$tmp/err5.txt"; }
+    n=$(records)
+    F=$(sed -n 's/.*: \([0-9.]*\) frames per part.*/\1/p' "$tmp/err5.txt")
+    L=$(sed -n 's/.*"kind":"part".*"frame_seq":\([0-9]*\).*/\1/p' "$tmp"/logs/*.jsonl | tail -1)
+    faults=$(grep '"kind":"part"' "$tmp"/logs/*.jsonl | grep -c '"verdict":"fault","reason":"off-edge"')
+    passes=$(grep '"kind":"part"' "$tmp"/logs/*.jsonl | grep -c '"verdict":"pass"')
+    echo "$n $L ${F:-0}" | awk '{d = $1 - $2 / $3; exit !(d >= -2 && d <= 2)}' &&
+        ok || bad "free run at $1 px per frame: $n records up to frame $L at ${F:-?} frames per part"
+}
+# slow: every part is seen whole many times and inspected once (all good)
+free_run 40 8
+[ "$n" -eq 8 ] && [ "$passes" -eq 8 ] && ok || bad "slow free run: $n records, $passes passes of 8 good parts"
+# one record per part: frame numbers F apart, not less
 sed -n 's/.*"kind":"part".*"frame_seq":\([0-9]*\).*/\1/p' "$tmp"/logs/*.jsonl |
-    awk 'NR > 1 && $1 - prev < 8 {bad = 1} {prev = $1} END {exit bad}' &&
-    ok || bad "a part was counted twice in the free run"
+    awk -v f="$F" 'NR > 1 && ($1 - prev < f - 1 || $1 - prev > f + 1) {bad = 1} {prev = $1} END {exit bad}' &&
+    ok || bad "slow free run: a part was counted twice, or lost"
+# too fast for the frame rate: parts that no frame shows whole are faults
+# (never silently lost); the others pass
+free_run 520 12
+[ "$faults" -ge 1 ] && [ $((faults + passes)) -eq "$n" ] && ok ||
+    bad "fast free run: $faults unseen-part faults and $passes passes of $n records"
 
 # 6. camera unplugged and back: the emulated camera through the real
 #    libv4l2, every frame a part; after 15 frames the camera is gone, the
