@@ -225,12 +225,15 @@ void mb_blur_gauss(float *plane, int width, int height, int stride,
         for (int x = -r; x < width + r; x++)
             pad[x + r] = in[x < 0 ? 0 : (x >= width ? width - 1 : x)];
         float *out = plane + (size_t)y * (size_t)stride;
-        for (int x = 0; x < width; x++) {
-            float s = 0.0f;
-            const float *p = pad + x;
-            for (int i = 0; i <= 2 * r; i++)
-                s += k[i] * p[i];
-            out[x] = s;
+        /* tap by tap across the row (vectorises), each sum in the same
+           order as a tap loop per pixel would add it */
+        for (int x = 0; x < width; x++)
+            out[x] = 0.0f;
+        for (int i = 0; i <= 2 * r; i++) {
+            const float *p = pad + i;
+            float w = k[i];
+            for (int x = 0; x < width; x++)
+                out[x] += w * p[x];
         }
     }
 }

@@ -836,3 +836,8 @@ int mb_synth_next(mb_synth *g, mb_image *frame, mb_synth_truth *truth)
     g->next_index++;
     return rc;
 }
+
+int mb_synth_max_points(const mb_synth *g)
+{
+    return g ? g->part.cap : 0;
+}

@@ -255,6 +255,10 @@ int mb_synth_make_over(mb_synth *g, uint64_t index, int shot, int defect,
                        const mb_pose *pose, uint64_t under, mb_image *frame,
                        mb_synth_truth *truth);
 
+/** The most outline points a truth of g can hold (its outlines.xy holds
+    twice as many doubles); 0 for NULL. */
+int mb_synth_max_points(const mb_synth *g);
+
 /** The next part of the line: mb_synth_make(g, i++, 0, MB_SYNTH_DRAW, ...),
     starting at index 0. */
 int mb_synth_next(mb_synth *g, mb_image *frame, mb_synth_truth *truth);

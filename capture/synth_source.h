@@ -48,6 +48,11 @@ typedef struct {
                         caller falls behind; default 0 */
     uint64_t max_frames; /**< after this many frames mb_source_next returns
                               MB_ENOTFOUND; 0 (default) = endless */
+    int render_ahead; /**< 1: a thread of the source draws the next frames
+                           while the caller works on the last one, as a
+                           camera exposes the next frame on its own (the
+                           same frames; ignored with drop_late); default 0:
+                           each frame is drawn when asked for */
 } mb_synth_source_config;
 
 /** What is in the frame last handed out. */

@@ -776,6 +776,7 @@ int mb_station_config_synth(const mb_station_config *cfg,
     out->synth.seed = cfg->camera.synth_seed;
     out->synth.defect_rate = cfg->camera.synth_defect_rate;
     out->speed_px = cfg->camera.synth_speed_px;
+    out->render_ahead = 1; /* a camera exposes the next frame on its own */
     out->fps = cfg->camera.synth_fps;
     return MB_OK;
 }

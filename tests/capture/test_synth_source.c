@@ -189,11 +189,14 @@ static void test_deterministic(void **state)
     mb_synth_source_config c;
     small_ring(&c);
     c.synth.defect_rate = 0.5;
-    mb_source *a = open_src(&c), *b = open_src(&c);
+    mb_source *a = open_src(&c);
+    c.render_ahead = 1; /* drawn by the source's own thread: the same line */
+    mb_source *b = open_src(&c);
+    c.render_ahead = 0;
     c.synth.seed = 8;
     mb_source *d = open_src(&c);
     int differ = 0;
-    for (int k = 0; k < 15; k++) {
+    for (int k = 0; k < 40; k++) {
         mb_frame fa, fb, fd;
         next_ok(a, &fa);
         next_ok(b, &fb);
@@ -205,7 +208,18 @@ static void test_deterministic(void **state)
         const mb_synth_source_truth *ta = mb_synth_source_truth_of(a),
                                     *tb = mb_synth_source_truth_of(b);
         assert_int_equal(ta->part, tb->part);
+        assert_int_equal(ta->frame, tb->frame);
         assert_int_equal(ta->truth.defect.type, tb->truth.defect.type);
+        assert_int_equal(ta->truth.outlines.n_outlines,
+                         tb->truth.outlines.n_outlines);
+        int n = 0;
+        for (int o = 0; o < ta->truth.outlines.n_outlines; o++) {
+            assert_int_equal(ta->truth.outlines.counts[o],
+                             tb->truth.outlines.counts[o]);
+            n += ta->truth.outlines.counts[o];
+        }
+        assert_memory_equal(ta->truth.outlines.xy, tb->truth.outlines.xy,
+                            sizeof(double) * 2 * (size_t)n);
         for (int y = 0; y < FH && !differ; y++)
             differ =
                 memcmp(fa.view.pixels + (size_t)y * fa.view.stride,
@@ -306,15 +320,24 @@ static void test_drop_late_and_max_frames(void **state)
     assert_int_equal(s.dropped, f.seq - 1);
     mb_source_close(src);
 
-    small_ring(&c);
-    c.max_frames = 3;
-    src = open_src(&c);
-    for (int k = 0; k < 3; k++)
-        next_ok(src, &f);
     char err[MB_ERR_LEN] = "";
-    assert_int_equal(mb_source_next(src, 100, &f, err), MB_ENOTFOUND);
-    assert_int_equal(mb_source_reopen(src, err), 0); /* nothing to reopen */
-    mb_source_close(src);
+    for (int ahead = 0; ahead < 2; ahead++) {
+        small_ring(&c);
+        c.max_frames = 3;
+        c.render_ahead = ahead;
+        src = open_src(&c);
+        for (int k = 0; k < 3; k++) {
+            next_ok(src, &f);
+            assert_int_equal(f.seq, k);
+        }
+        assert_int_equal(mb_source_next(src, 100, &f, err), MB_ENOTFOUND);
+        assert_int_equal(mb_source_reopen(src, err), 0); /* nothing to reopen */
+        mb_source_close(src);
+    }
+    /* closed while its thread is drawing ahead: no frame asked for yet */
+    small_ring(&c);
+    c.render_ahead = 1;
+    mb_source_close(open_src(&c));
 }
 
 /* mb_synth_make_at at the pose mb_synth_make drew gives the same frame:
