@@ -56,6 +56,7 @@ static const char *const reason_names[] = {
     [MB_REASON_RESIDUAL] = "residual",[MB_REASON_NICK] = "nick",
     [MB_REASON_FLASH] = "flash",      [MB_REASON_GAP] = "gap",
     [MB_REASON_GAUGE] = "gauge",      [MB_REASON_DEFORM] = "deform",
+    [MB_REASON_SPOT] = "spot",
     [MB_REASON_FRAME] = "frame",
     [MB_REASON_MODEL] = "model",      [MB_REASON_INTERNAL] = "internal",
 };
@@ -71,7 +72,7 @@ const char *mb_reason_name(mb_reason_code c)
 int mb_reason_located(mb_reason_code c)
 {
     return c == MB_REASON_NICK || c == MB_REASON_FLASH || c == MB_REASON_GAP ||
-           c == MB_REASON_DEFORM;
+           c == MB_REASON_DEFORM || c == MB_REASON_SPOT;
 }
 
 int mb_verdict_save_overlay(const mb_verdict *v, const mb_image *frame,
@@ -628,46 +629,62 @@ static void judge_local(mb_inspector *ins, const mb_asm_result *res,
 
 /* Material beyond the edge (inspect/beyond.h): reported as flash, unless a
    local-deviation reason already names the same place. */
-static void judge_beyond(mb_inspector *ins, const mb_image *frame,
-                         const mb_asm_result *res, mb_verdict *v)
+/* Report a finding of the checks beside the edge (inspect/beyond.h) as
+   reason `code`, unless a located reason already marks that place. */
+static void report_beside(mb_inspector *ins, const mb_asm_result *res,
+                          const mb_beyond *b, mb_reason_code code, mb_verdict *v)
 {
-    const mb_profile_stats *st = mb_profile_model_stats(ins->pm->profiles);
-    mb_beyond b;
-    mb_beyond_check(frame, res, mb_shape_model_layout(ins->pm->shape),
-                    st->part_grey, st->back_grey, 2, &b);
-    if (!b.found)
-        return;
-    double x = res->dense_xy[2 * b.worst], y = res->dense_xy[2 * b.worst + 1];
+    double x = res->dense_xy[2 * b->worst], y = res->dense_xy[2 * b->worst + 1];
     for (int i = 0; i < v->n_reasons; i++) {
         const mb_reason *r = &v->reasons[i];
-        if ((r->code == MB_REASON_FLASH || r->code == MB_REASON_GAP ||
-             r->code == MB_REASON_DEFORM) && hypot(r->x - x, r->y - y) < 10.0)
+        if (mb_reason_located(r->code) && hypot(r->x - x, r->y - y) < 10.0)
             return;
     }
     const mb_layout *l = mb_shape_model_layout(ins->pm->shape);
-    int lm = res->dense_seg[b.worst], o = 0, first = 0;
+    int lm = res->dense_seg[b->worst], o = 0, first = 0;
     while (o < l->n_outlines - 1 && lm >= first + l->counts[o])
         first += l->counts[o++];
     double mm = ins->p.mm_per_px > 0 ? ins->p.mm_per_px : 1.0;
     const char *unit = ins->p.mm_per_px > 0 ? "mm" : "px";
-    double ext = b.len * res->dense_spacing * mm;
-    mb_reason *r = add_reason(v, MB_REASON_FLASH, ext, 0);
+    double ext = b->len * res->dense_spacing * mm;
+    mb_reason *r = add_reason(v, code, ext, 0);
     if (!r)
         return;
     char oname[32];
     outline_name(o, oname, sizeof oname);
     r->outline = o;
-    r->position = (lm - first + res->dense_frac[b.worst]) / l->counts[o];
+    r->position = (lm - first + res->dense_frac[b->worst]) / l->counts[o];
     r->angle_deg = ins->mean_angle[lm];
     r->x = x;
     r->y = y;
     r->extent_mm = ext;
     r->depth_mm = 3.0 * mm;
     r->depth_px = 3.0;
-    snprintf(r->text, sizeof r->text,
-             "material beyond %s at %.0f deg (%.0f %% along) over %.2f %s: "
-             "contamination or flash touching the part", oname, r->angle_deg,
-             100.0 * r->position, ext, unit);
+    if (code == MB_REASON_SPOT)
+        snprintf(r->text, sizeof r->text,
+                 "a spot on the part beside %s at %.0f deg (%.0f %% along) "
+                 "over %.2f %s: dirt or a fibre on the part, or a hole "
+                 "through it", oname, r->angle_deg, 100.0 * r->position, ext, unit);
+    else
+        snprintf(r->text, sizeof r->text,
+                 "material beyond %s at %.0f deg (%.0f %% along) over %.2f %s: "
+                 "contamination or flash touching the part", oname, r->angle_deg,
+                 100.0 * r->position, ext, unit);
+}
+
+/* Material beyond the edge, and spots on the part beside it. */
+static void judge_beside(mb_inspector *ins, const mb_image *frame,
+                         const mb_asm_result *res, mb_verdict *v)
+{
+    const mb_profile_stats *st = mb_profile_model_stats(ins->pm->profiles);
+    const mb_layout *l = mb_shape_model_layout(ins->pm->shape);
+    mb_beyond b;
+    mb_beyond_check(frame, res, l, ins->corner, st->part_grey, st->back_grey, 2, &b);
+    if (b.found)
+        report_beside(ins, res, &b, MB_REASON_FLASH, v);
+    mb_spot_check(frame, res, l, ins->corner, st->part_grey, st->back_grey, 2, &b);
+    if (b.found)
+        report_beside(ins, res, &b, MB_REASON_SPOT, v);
 }
 
 static void fault(mb_verdict *v, mb_reason_code c, const char *text)
@@ -838,7 +855,7 @@ static void judge(mb_inspector *ins, mb_verdict *v)
                      fabs(v->size_px - edge) * u, unit);
     }
     judge_local(ins, &res, v);
-    judge_beyond(ins, &ins->frame, &res, v);
+    judge_beside(ins, &ins->frame, &res, v);
     if (pm->n_gauges > 0 && (mm > 0 || ins->p.calib)) {
         /* On the conveyor plane: through the calibration when there is
            one (perspective and lens distortion removed), else one scale. */

@@ -50,6 +50,8 @@ typedef enum {
     MB_REASON_GAUGE = 12,      /**< a drawing gauge out of tolerance */
     MB_REASON_DEFORM = 13,     /**< an outline departs from the taught shape
                                     over a long stretch (bent, dented) */
+    MB_REASON_SPOT = 14,       /**< a spot on the part beside its edge: dirt,
+                                    a fibre, a hole through it */
     MB_REASON_FRAME = 20,      /**< frame unusable (size) (fault) */
     MB_REASON_MODEL = 21,      /**< no usable model (fault) */
     MB_REASON_INTERNAL = 22    /**< internal error (fault) */
@@ -59,7 +61,7 @@ typedef enum {
 const char *mb_reason_name(mb_reason_code c);
 
 /** 1 for the reasons that carry a place on the part (nick, flash, gap,
-    deform): outline, position, angle, x/y, depth, extent. */
+    deform, spot): outline, position, angle, x/y, depth, extent. */
 int mb_reason_located(mb_reason_code c);
 
 #define MB_MAX_REASONS 12
