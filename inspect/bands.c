@@ -149,6 +149,29 @@ static void derive(const loo_scores *s, int excl, double alpha,
     } else {
         lim->spe_limit = 2.0 * mu;
     }
+    /* The moment fit above takes mean and variance of a few dozen values
+       as exact, and a scaled chi-square's tail is light. A prediction
+       limit for one new part on the log scale (where the residual of good
+       parts is close to normal and its tail heavier) with Student's t for
+       the small sample, as the size band does, is the floor. */
+    double lm = 0.0, lv = 0.0;
+    int nl = 0;
+    for (int i = 0; i < s->m; i++)
+        if (i != excl && s->spe[i] > 0.0) {
+            lm += log(s->spe[i]);
+            nl++;
+        }
+    if (nl >= 3) {
+        lm /= nl;
+        for (int i = 0; i < s->m; i++)
+            if (i != excl && s->spe[i] > 0.0)
+                lv += (log(s->spe[i]) - lm) * (log(s->spe[i]) - lm);
+        double lsd = sqrt(lv / (nl - 1));
+        double tl1 = mb_stats_t_quantile(1.0 - a, nl - 1);
+        double pl = exp(lm + tl1 * lsd * sqrt(1.0 + 1.0 / nl));
+        if (pl > lim->spe_limit)
+            lim->spe_limit = pl;
+    }
 
     /* Per landmark: the spread pooled over +-w neighbours (stable), but
        never below the landmark's own spread or its next neighbours' (a
