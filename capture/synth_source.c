@@ -17,6 +17,7 @@
 #include <limits.h>
 #include <math.h>
 #include <pthread.h>
+#include <signal.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
@@ -398,7 +399,13 @@ int mb_synth_source_open(const mb_synth_source_config *cfg, mb_source **out,
     if (want_ahead) {
         pthread_mutex_init(&s->mu, NULL);
         pthread_cond_init(&s->cv, NULL);
+        /* the worker takes no signals: the caller's handlers and its
+           poll loop (EINTR) must see them */
+        sigset_t all, old;
+        sigfillset(&all);
+        pthread_sigmask(SIG_SETMASK, &all, &old);
         s->ahead = pthread_create(&s->worker, NULL, draw_ahead, s) == 0;
+        pthread_sigmask(SIG_SETMASK, &old, NULL);
         if (!s->ahead) { /* no thread to be had: draw on request */
             pthread_cond_destroy(&s->cv);
             pthread_mutex_destroy(&s->mu);
