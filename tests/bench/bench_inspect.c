@@ -42,6 +42,7 @@
  * when run from ctest unless MB_BENCH=1 is set:
  *     MB_BENCH=1 ctest --test-dir build -R bench_inspect -V
  */
+#include "alloc_count.h"
 #include "error.h"
 #include "image_file.h"
 #include "labels_file.h"
@@ -71,31 +72,6 @@ static double ALPHA = 0.0;
 #define N_CONFIGS (2 * MB_SYNTH_N_FAMILIES)
 #define PATH_LEN 1024
 
-void *__real_malloc(size_t n);
-void *__real_calloc(size_t n, size_t s);
-void *__real_realloc(void *p, size_t n);
-void *__wrap_malloc(size_t n);
-void *__wrap_calloc(size_t n, size_t s);
-void *__wrap_realloc(void *p, size_t n);
-static long n_allocs;
-
-void *__wrap_malloc(size_t n)
-{
-    n_allocs++;
-    return __real_malloc(n);
-}
-
-void *__wrap_calloc(size_t n, size_t s)
-{
-    n_allocs++;
-    return __real_calloc(n, s);
-}
-
-void *__wrap_realloc(void *p, size_t n)
-{
-    n_allocs++;
-    return __real_realloc(p, n);
-}
 
 /* The defect types the test sets cycle through (every one but CUT). */
 static const int defect_types[] = {
@@ -371,12 +347,12 @@ static void run_config(int fam, int light, const bench_opts *o, config_figures *
         memcpy(copy.pixels, frame.pixels, (size_t)frame.stride * (size_t)H);
         double t1 = now_ms();
         mb_verdict v;
-        long a0 = n_allocs;
+        long a0 = mb_allocs();
         double c2 = cpu_ms(), t2 = now_ms();
         mb_inspector_run(ins, &frame, &v);
         double t3 = now_ms(), c3 = cpu_ms();
         if (!first) { /* the first run of an inspector is not counted */
-            f->allocs += n_allocs - a0;
+            f->allocs += mb_allocs() - a0;
             t_cpy[f->timed] = t1 - t0;
             t_run[f->timed] = t3 - t2;
             t_cpu[f->timed] = c3 - c2;

@@ -15,6 +15,7 @@
  * usage: bench_outline [RUNS]
  * Under ctest (label "bench") it skips itself (exit 77) unless MB_BENCH=1.
  */
+#include "alloc_count.h"
 #include "error.h"
 #include "outline.h"
 #include "outline_scene.h"
@@ -26,32 +27,6 @@
 #include <string.h>
 #include <time.h>
 
-void *__real_malloc(size_t n);
-void *__real_calloc(size_t n, size_t m);
-void *__real_realloc(void *p, size_t n);
-void *__wrap_malloc(size_t n);
-void *__wrap_calloc(size_t n, size_t m);
-void *__wrap_realloc(void *p, size_t n);
-
-static long allocations;
-
-void *__wrap_malloc(size_t n)
-{
-    allocations++;
-    return __real_malloc(n);
-}
-
-void *__wrap_calloc(size_t n, size_t m)
-{
-    allocations++;
-    return __real_calloc(n, m);
-}
-
-void *__wrap_realloc(void *p, size_t n)
-{
-    allocations++;
-    return __real_realloc(p, n);
-}
 
 enum { W = 1280, H = 1024 };
 
@@ -144,7 +119,7 @@ static int bench(const char *name, const scene *sc, const mb_image *img,
         fprintf(stderr, "bench_outline: %s: %s\n", name, err);
         return 1;
     }
-    long before = allocations;
+    long before = mb_allocs();
     for (int r = 0; r < runs; r++) {
         double t0 = now_ms(), c0 = cpu_ms();
         int rc = mb_outliner_run(o, img, &res, err);
@@ -155,7 +130,7 @@ static int bench(const char *name, const scene *sc, const mb_image *img,
             return 1;
         }
     }
-    long allocs = allocations - before;
+    long allocs = mb_allocs() - before;
     double med, p99, cmed, cp99;
     stats(t, runs, &med, &p99);
     stats(c, runs, &cmed, &cp99);

@@ -20,6 +20,7 @@
  * when run from ctest unless MB_BENCH=1 is set:
  *     MB_BENCH=1 ctest --test-dir build -L bench -V
  */
+#include "alloc_count.h"
 #include "asm.h"
 #include "error.h"
 #include "locate.h"
@@ -38,31 +39,6 @@
 #define POINTS 256
 #define PARTS 10
 
-void *__real_malloc(size_t n);
-void *__real_calloc(size_t n, size_t s);
-void *__real_realloc(void *p, size_t n);
-void *__wrap_malloc(size_t n);
-void *__wrap_calloc(size_t n, size_t s);
-void *__wrap_realloc(void *p, size_t n);
-static long n_allocs;
-
-void *__wrap_malloc(size_t n)
-{
-    n_allocs++;
-    return __real_malloc(n);
-}
-
-void *__wrap_calloc(size_t n, size_t s)
-{
-    n_allocs++;
-    return __real_calloc(n, s);
-}
-
-void *__wrap_realloc(void *p, size_t n)
-{
-    n_allocs++;
-    return __real_realloc(p, n);
-}
 
 static double now_ms(void)
 {
@@ -170,7 +146,7 @@ int main(int argc, char **argv)
             mb_locate_run(loc, t.pyr, &lr);
             mb_asm_search(as, t.pyr, lr.candidates, lr.n_candidates, &r);
 
-            long allocs0 = n_allocs;
+            long allocs0 = mb_allocs();
             int q = 0, failed = 0, notconv = 0, starts = 0, mrounds = 0, frounds = 0;
             double ss = 0.0, worst = 0.0, iters[LEVELS] = {0};
             long npts = 0;
@@ -214,7 +190,7 @@ int main(int argc, char **argv)
                             npts++;
                         }
                 }
-            long allocs = n_allocs - allocs0;
+            long allocs = mb_allocs() - allocs0;
             double m_pyr, p_pyr, m_loc, p_loc, m_fit, p_fit, m_lf, p_lf, m_all, p_all, m_cpy, p_cpy;
             stats(t_pyr, total, &m_pyr, &p_pyr);
             stats(t_loc, total, &m_loc, &p_loc);

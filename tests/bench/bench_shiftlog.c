@@ -7,6 +7,7 @@
  * MB_BENCH=1:  MB_BENCH=1 ctest --test-dir build -R bench_shiftlog -V
  * or run build/tests/bench/bench_shiftlog [RECORDS] [FOLDER].
  */
+#include "alloc_count.h"
 #include "error.h"
 #include "shiftlog.h"
 
@@ -17,31 +18,6 @@
 #include <time.h>
 #include <unistd.h>
 
-static unsigned long allocs;
-void *__real_malloc(size_t n);
-void *__real_calloc(size_t n, size_t m);
-void *__real_realloc(void *p, size_t n);
-void *__wrap_malloc(size_t n);
-void *__wrap_calloc(size_t n, size_t m);
-void *__wrap_realloc(void *p, size_t n);
-
-void *__wrap_malloc(size_t n)
-{
-    allocs++;
-    return __real_malloc(n);
-}
-
-void *__wrap_calloc(size_t n, size_t m)
-{
-    allocs++;
-    return __real_calloc(n, m);
-}
-
-void *__wrap_realloc(void *p, size_t n)
-{
-    allocs++;
-    return __real_realloc(p, n);
-}
 
 static double mono_ms(void)
 {
@@ -107,7 +83,7 @@ static int run(const char *folder, int n, int flush_s, double *rate,
     mb_shiftlog_part(log, t0, &r, err); /* warm up (time zone, file) */
     struct stat s0, s1;
     fstat(mb_shiftlog_fd(log), &s0);
-    unsigned long a0 = allocs;
+    unsigned long a0 = (unsigned long)mb_allocs();
     double w0 = mono_ms();
     for (int i = 1; i <= n; i++) {
         r.seq = (uint32_t)i;
@@ -118,7 +94,7 @@ static int run(const char *folder, int n, int flush_s, double *rate,
         }
     }
     double w1 = mono_ms();
-    unsigned long a1 = allocs;
+    unsigned long a1 = (unsigned long)mb_allocs();
     fstat(mb_shiftlog_fd(log), &s1);
     mb_shiftlog_stats st;
     mb_shiftlog_get_stats(log, &st);

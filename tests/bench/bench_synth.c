@@ -9,6 +9,7 @@
  * (exit 77) unless MB_BENCH=1:  MB_BENCH=1 ctest --test-dir build -R
  * bench_synth -V or run build/tests/bench/bench_synth [FRAMES].
  */
+#include "alloc_count.h"
 #include "error.h"
 #include "image.h"
 #include "image_file.h"
@@ -21,32 +22,7 @@
 #include <time.h>
 #include <unistd.h>
 
-static long allocs;
 
-void *__real_malloc(size_t n);
-void *__real_calloc(size_t n, size_t m);
-void *__real_realloc(void *p, size_t n);
-void *__wrap_malloc(size_t n);
-void *__wrap_calloc(size_t n, size_t m);
-void *__wrap_realloc(void *p, size_t n);
-
-void *__wrap_malloc(size_t n)
-{
-    allocs++;
-    return __real_malloc(n);
-}
-
-void *__wrap_calloc(size_t n, size_t m)
-{
-    allocs++;
-    return __real_calloc(n, m);
-}
-
-void *__wrap_realloc(void *p, size_t n)
-{
-    allocs++;
-    return __real_realloc(p, n);
-}
 
 static double now_ms(void)
 {
@@ -92,7 +68,7 @@ int main(int argc, char **argv)
                     return 1;
                 }
                 mb_synth_next(g, &im, NULL); /* first frame: page faults */
-                long a0 = allocs;
+                long a0 = mb_allocs();
                 double sum = 0;
                 for (int i = 0; i < frames; i++) {
                     double s = now_ms();
@@ -100,7 +76,7 @@ int main(int argc, char **argv)
                     t[i] = now_ms() - s;
                     sum += t[i];
                 }
-                long a = allocs - a0;
+                long a = mb_allocs() - a0;
                 qsort(t, (size_t)frames, sizeof *t, cmp);
                 printf("%-8s %-6s %-10s %8.2f %8.2f %8.2f %14.2f\n",
                        mb_synth_family_name(f), mb_synth_lighting_name(light),

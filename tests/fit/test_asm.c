@@ -34,6 +34,7 @@
 #include <stdint.h>
 #include <cmocka.h>
 
+#include "alloc_count.h"
 #include "asm.h"
 #include "asm_parts.h"
 #include "error.h"
@@ -49,31 +50,6 @@
 
 /* ---- allocation counter (linked with -Wl,--wrap=malloc,...) ---------- */
 
-void *__real_malloc(size_t n);
-void *__real_calloc(size_t n, size_t s);
-void *__real_realloc(void *p, size_t n);
-void *__wrap_malloc(size_t n);
-void *__wrap_calloc(size_t n, size_t s);
-void *__wrap_realloc(void *p, size_t n);
-static long n_allocs;
-
-void *__wrap_malloc(size_t n)
-{
-    n_allocs++;
-    return __real_malloc(n);
-}
-
-void *__wrap_calloc(size_t n, size_t s)
-{
-    n_allocs++;
-    return __real_calloc(n, s);
-}
-
-void *__wrap_realloc(void *p, size_t n)
-{
-    n_allocs++;
-    return __real_realloc(p, n);
-}
 
 /* ---- shared set-up ---------------------------------------------------- */
 
@@ -825,7 +801,7 @@ static void test_search_no_alloc(void **state)
         assert_int_equal(mb_image_alloc(W, H, &frames[j]), MB_OK);
         scene_render(&sc, &frames[j]);
     }
-    long before = n_allocs;
+    long before = mb_allocs();
     for (int rep = 0; rep < 6; rep++) {
         mb_locate_result lr;
         mb_asm_result r;
@@ -835,13 +811,13 @@ static void test_search_no_alloc(void **state)
                          MB_OK);
         assert_true(r.converged);
     }
-    long per_frame = n_allocs - before;
+    long per_frame = mb_allocs() - before;
     printf("allocations during 6 frames (pyramid, locate, search): %ld\n", per_frame);
     assert_int_equal(per_frame, 0);
     /* the counter works (volatile: a malloc/free pair may be elided) */
     void *volatile probe = malloc(16);
     free(probe);
-    assert_int_equal(n_allocs - before, 1);
+    assert_int_equal(mb_allocs() - before, 1);
     for (int j = 0; j < 3; j++)
         mb_image_free(&frames[j]);
     mb_asm_close(as);

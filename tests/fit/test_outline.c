@@ -24,6 +24,7 @@
 
 #include <cmocka.h>
 
+#include "alloc_count.h"
 #include "error.h"
 #include "outline.h"
 #include "outline_scene.h"
@@ -34,34 +35,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-/* ---- allocation counting (linked with -Wl,--wrap=malloc,...) ---------- */
-
-void *__real_malloc(size_t n);
-void *__real_calloc(size_t n, size_t m);
-void *__real_realloc(void *p, size_t n);
-void *__wrap_malloc(size_t n);
-void *__wrap_calloc(size_t n, size_t m);
-void *__wrap_realloc(void *p, size_t n);
-
-static long allocations;
-
-void *__wrap_malloc(size_t n)
-{
-    allocations++;
-    return __real_malloc(n);
-}
-
-void *__wrap_calloc(size_t n, size_t m)
-{
-    allocations++;
-    return __real_calloc(n, m);
-}
-
-void *__wrap_realloc(void *p, size_t n)
-{
-    allocations++;
-    return __real_realloc(p, n);
-}
 
 /* ---- Otsu ------------------------------------------------------------- */
 
@@ -571,10 +544,10 @@ static void test_pyramid_resample_and_allocation(void **state)
     scene sc;
     flange_scene(&sc, 0, 7);
     scene_render(&sc, &f->img);
-    long before = allocations;
+    long before = mb_allocs();
     assert_int_equal(mb_outliner_run(f->o, &f->img, &f->res, f->err), 0);
     assert_int_equal(mb_outliner_run(f->o, &f->img, &f->res, f->err), 0);
-    assert_int_equal(allocations, before);
+    assert_int_equal(mb_allocs(), before);
 
     double *copy = malloc(2 * sizeof(double) * (size_t)f->res.layout.n_points);
     assert_non_null(copy);
@@ -585,17 +558,17 @@ static void test_pyramid_resample_and_allocation(void **state)
     mb_pyramid *pyr;
     assert_int_equal(mb_pyramid_create(W, H, 4, &pyr), 0);
     assert_int_equal(mb_pyramid_build(pyr, &f->img), 0);
-    before = allocations;
+    before = mb_allocs();
     assert_int_equal(mb_outliner_run_pyramid(f->o, pyr, &f->res, f->err), 0);
-    assert_int_equal(allocations, before);
+    assert_int_equal(mb_allocs(), before);
     assert_memory_equal(&f->res.layout, &found, sizeof found);
     assert_memory_equal(f->res.points, copy,
                         2 * sizeof(double) * (size_t)found.n_points);
 
     mb_layout want = {5, {200, 60, 40, 24, 16}, 340};
-    before = allocations;
+    before = mb_allocs();
     assert_int_equal(mb_outliner_resample(f->o, &want, &f->res, f->err), 0);
-    assert_int_equal(allocations, before);
+    assert_int_equal(mb_allocs(), before);
     assert_memory_equal(&f->res.layout, &want, sizeof want);
     const scene_shape *truth[5] = {&sc.solid[0], &sc.hole[0], &sc.hole[1],
                                    &sc.hole[2], &sc.hole[3]};
