@@ -60,6 +60,22 @@
 /* Smallest positive double kept off zero in the Lentz recurrences. */
 #define LENTZ_TINY 1e-300
 
+/* One step of the modified Lentz method for a continued fraction
+   b0 + a1/(b1 + a2/(b2 + ...)): with the next partial numerator num and
+   denominator den, update C and D (kept away from zero) and return the
+   factor the running value is multiplied by. */
+static double lentz_step(double num, double den, double *c, double *d)
+{
+    *d = den + num * *d;
+    if (fabs(*d) < LENTZ_TINY)
+        *d = LENTZ_TINY;
+    *c = den + num / *c;
+    if (fabs(*c) < LENTZ_TINY)
+        *c = LENTZ_TINY;
+    *d = 1.0 / *d;
+    return *d * *c;
+}
+
 /* ---- ln Gamma via Stirling's remainder ------------------------------ */
 
 /* s(z) for z >= 10 by the asymptotic series A&S 6.1.41 (through z^-13; the
@@ -201,14 +217,7 @@ static int gamma_tails(double a, double x, double *lower, double *upper)
     for (i = 1; i < cap; i++) {
         double an = -i * (i - a);
         b += 2.0;
-        d = an * d + b;
-        if (fabs(d) < LENTZ_TINY)
-            d = LENTZ_TINY;
-        c = b + an / c;
-        if (fabs(c) < LENTZ_TINY)
-            c = LENTZ_TINY;
-        d = 1.0 / d;
-        double delta = d * c;
+        double delta = lentz_step(an, b, &c, &d);
         f *= delta;
         if (fabs(delta - 1.0) <= DBL_EPSILON)
             break;
@@ -297,14 +306,7 @@ static int beta_cf(double x, double y, double a, double b, double *out)
         double den = beta_cf_odd1(x, y, a, b, dm) + d_even;
         d_odd = -(a + dm) * (a + b + dm) * x /
                 ((a + 2.0 * dm) * (a + 2.0 * dm + 1.0));
-        d = den + num * d;
-        if (fabs(d) < LENTZ_TINY)
-            d = LENTZ_TINY;
-        c = den + num / c;
-        if (fabs(c) < LENTZ_TINY)
-            c = LENTZ_TINY;
-        d = 1.0 / d;
-        double delta = c * d;
+        double delta = lentz_step(num, den, &c, &d);
         g *= delta;
         if (fabs(delta - 1.0) <= DBL_EPSILON)
             break;
