@@ -288,19 +288,25 @@ static int read_camera(const reader *r, const cJSON *root,
     return MB_OK;
 }
 
-/* A required top-level array of 1..max items: its item and count, or a
-   sentence naming it. */
-static int required_array(const reader *r, const cJSON *root, const char *key,
-                          const char *what, int max, const cJSON **arr, int *n)
+/* An array member of obj (section "" for the top level) holding min..max
+   items: the array and its count, or a sentence naming it. */
+static int bounded_array(const reader *r, const cJSON *obj, const char *section,
+                         const char *key, int min, int max, const char *what,
+                         const cJSON **arr, int *n)
 {
-    int rc = mb_json_member(root, r->name, "", key, MB_JSON_ARRAY, arr, r->err);
+    int rc = mb_json_member(obj, r->name, section, key, MB_JSON_ARRAY, arr, r->err);
     if (rc < 0)
         return rc;
     *n = cJSON_GetArraySize(*arr);
-    if (*n < 1 || *n > max)
-        return mb_err_set(r->err, MB_EFORMAT, "%s: %s: expected 1 to %d %s, found %d",
-                          r->name, key, max, what, *n);
-    return MB_OK;
+    if (*n >= min && *n <= max)
+        return MB_OK;
+    char field[MB_JSON_FIELD_LEN];
+    snprintf(field, sizeof field, "%s%s%s", section, *section ? "." : "", key);
+    if (min == 0)
+        return mb_err_set(r->err, MB_EFORMAT, "%s: %s: expected at most %d %s, found %d",
+                          r->name, field, max, what, *n);
+    return mb_err_set(r->err, MB_EFORMAT, "%s: %s: expected %d to %d %s, found %d",
+                      r->name, field, min, max, what, *n);
 }
 
 static int read_slots(const reader *r, const cJSON *root,
@@ -308,8 +314,8 @@ static int read_slots(const reader *r, const cJSON *root,
 {
     const cJSON *arr, *it;
     int rc, n;
-    if ((rc = required_array(r, root, "slots", "part slots", MB_STATION_MAX_SLOTS,
-                             &arr, &n)) < 0)
+    if ((rc = bounded_array(r, root, "", "slots", 1, MB_STATION_MAX_SLOTS,
+                            "part slots", &arr, &n)) < 0)
         return rc;
     int i = 0;
     cJSON_ArrayForEach(it, arr)
@@ -365,15 +371,10 @@ static int read_plc(const reader *r, const cJSON *root, mb_station_plc *p)
                           "address (127.0.0.1, 0.0.0.0, ::), found \"%s\"",
                           r->name, p->bind);
     if (cJSON_GetObjectItemCaseSensitive(plc, "allow")) {
-        if ((rc = mb_json_member(plc, r->name, "plc", "allow", MB_JSON_ARRAY,
-                                 &arr, r->err)) < 0)
+        int n;
+        if ((rc = bounded_array(r, plc, "plc", "allow", 0, MB_PLC_MAX_ALLOW,
+                                "entries", &arr, &n)) < 0)
             return rc;
-        int n = cJSON_GetArraySize(arr);
-        if (n > MB_PLC_MAX_ALLOW)
-            return mb_err_set(r->err, MB_EFORMAT,
-                              "%s: plc.allow: expected at most %d entries, "
-                              "found %d",
-                              r->name, MB_PLC_MAX_ALLOW, n);
         int i = 0;
         cJSON_ArrayForEach(it, arr)
         {
@@ -457,8 +458,8 @@ static int read_shifts(const reader *r, const cJSON *root,
 {
     const cJSON *arr, *it;
     int rc, n;
-    if ((rc = required_array(r, root, "shifts", "shifts", MB_SHIFT_MAX, &arr,
-                             &n)) < 0)
+    if ((rc = bounded_array(r, root, "", "shifts", 1, MB_SHIFT_MAX, "shifts",
+                            &arr, &n)) < 0)
         return rc;
     mb_shift_def defs[MB_SHIFT_MAX];
     int i = 0;
@@ -512,15 +513,10 @@ static int read_drift(const reader *r, const cJSON *root,
         return rc;
     if (!cJSON_GetObjectItemCaseSensitive(d, "modes"))
         return MB_OK;
-    if ((rc = mb_json_member(d, r->name, "drift", "modes", MB_JSON_ARRAY, &arr,
-                             r->err)) < 0)
+    int n;
+    if ((rc = bounded_array(r, d, "drift", "modes", 0, MB_STATION_MAX_MODES,
+                            "mode numbers", &arr, &n)) < 0)
         return rc;
-    int n = cJSON_GetArraySize(arr);
-    if (n > MB_STATION_MAX_MODES)
-        return mb_err_set(r->err, MB_EFORMAT,
-                          "%s: drift.modes: expected at most %d mode numbers, "
-                          "found %d",
-                          r->name, MB_STATION_MAX_MODES, n);
     int i = 0;
     cJSON_ArrayForEach(it, arr)
     {
