@@ -9,11 +9,12 @@
  * 5-row sum and a horizontal 5-tap sum at every other column, all in exact
  * integer arithmetic (the 2-D weights sum to 256).
  *
- * Order of the passes: for each output row the five source rows are summed
- * first (contiguous, vectorises) into a row of 16-bit sums; the horizontal
- * pass then reads that row at every other column. The result is the exact
- * rounded separable convolution, so it can be compared bit for bit with
- * scipy.ndimage (see tests/fit/ref_pyramid.py).
+ * Order of the passes (fit/pyramid_rows.h): for each pair of output rows
+ * the seven source rows are summed first (contiguous, vectorises) into two
+ * rows of 16-bit sums; the horizontal pass then reads those at every other
+ * column. The result is the exact rounded separable convolution, so it can
+ * be compared bit for bit with scipy.ndimage (see tests/fit/ref_pyramid.py),
+ * and it is the same whichever vector width computes it.
  */
 #include "pyramid.h"
 
@@ -23,13 +24,19 @@
 #include <stdlib.h>
 #include <string.h>
 
+/* Row buffers: ROW_PAD entries before column 0 and 4 after the last (the
+   vector loop loads one past the last clamped entry and drops it). */
+#define ROW_PAD 2
+#define ROW_LEN(w) ((w) + 6)
+
+static int cpu_wide(void);
+
 struct mb_pyramid {
     int levels;
     int width, height; /* level 0 size the pyramid was made for */
     mb_image level[MB_PYRAMID_MAX_LEVELS]; /* [0] is a view of the frame */
-    uint16_t *row; /* width + 6 column sums: 2 pad before, 4
-                      after (the vector loop reads one past
-                      the last clamped entry) */
+    uint16_t *rows; /* two rows of vertical sums, ROW_LEN(width) each */
+    int wide;       /* the 32-byte kernels (mb_pyramid_use_wide) */
 };
 
 int mb_pyramid_create(int width, int height, int levels, mb_pyramid **out)
@@ -46,9 +53,10 @@ int mb_pyramid_create(int width, int height, int levels, mb_pyramid **out)
     pyr->levels = levels;
     pyr->width = width;
     pyr->height = height;
-    pyr->row = calloc((size_t)width + 6, sizeof *pyr->row);
-    if (!pyr->row)
+    pyr->rows = calloc(2 * (size_t)ROW_LEN(width), sizeof *pyr->rows);
+    if (!pyr->rows)
         goto fail;
+    pyr->wide = cpu_wide();
     int w = width, h = height;
     for (int l = 1; l < levels; l++) {
         w = (w + 1) / 2;
@@ -69,7 +77,7 @@ void mb_pyramid_close(mb_pyramid *pyr)
         return;
     for (int l = 1; l < pyr->levels; l++)
         mb_image_free(&pyr->level[l]);
-    free(pyr->row);
+    free(pyr->rows);
     free(pyr);
 }
 
@@ -90,105 +98,72 @@ static int clampi(int v, int lo, int hi)
     return v < lo ? lo : v > hi ? hi : v;
 }
 
-/* The two inner loops are written with the vector extension of GCC and
- * clang (lane-wise arithmetic, no intrinsics, no byte-order assumptions):
- * at -O2 GCC's cheap cost model leaves the plain loops scalar, and the
- * pyramid is the only part of the per-frame path that reads every pixel.
- * Other compilers get the plain loops. */
+/* The kernels are written with the vector extension of GCC and clang
+ * (lane-wise arithmetic, no intrinsics, no byte-order assumptions): at -O2
+ * GCC's cheap cost model leaves the plain loops scalar, and the pyramid is
+ * the only part of the per-frame path that reads every pixel. One copy uses
+ * 16-byte vectors (every x86-64 and ARM64 CPU has them); on x86 a second
+ * copy uses 32-byte vectors for CPUs with AVX2, chosen when the pyramid is
+ * made. Other compilers get the plain loops. */
 #if defined(__GNUC__) && defined(__has_builtin)
-#if __has_builtin(__builtin_convertvector) &&                                  \
-    __has_builtin(__builtin_shufflevector)
+#if __has_builtin(__builtin_convertvector) && __has_builtin(__builtin_shufflevector)
 #define PYR_VECTOR 1
+#if (defined(__x86_64__) || defined(__i386__)) && !defined(__clang__)
+#define PYR_WIDE 1
+#endif
 #endif
 #endif
 
 #ifdef PYR_VECTOR
-/* 16-byte vectors only: wider ones change the calling convention without
- * AVX (GCC's -Wpsabi) */
-typedef uint8_t u8x8 __attribute__((vector_size(8)));
-typedef uint16_t u16x8 __attribute__((vector_size(16)));
+#define ROWS_LANES 8
+#define ROWS_NAME(x) x##_8
+#define ROWS_TARGET
+#define ROWS_EVEN(a, b) __builtin_shufflevector(a, b, 0, 2, 4, 6, 8, 10, 12, 14)
+#define ROWS_ODD(a, b) __builtin_shufflevector(a, b, 1, 3, 5, 7, 9, 11, 13, 15)
+#else
+#define ROWS_LANES 0
+#define ROWS_NAME(x) x##_8
+#define ROWS_TARGET
+#endif
+#include "pyramid_rows.h"
+#undef ROWS_LANES
+#undef ROWS_NAME
+#undef ROWS_TARGET
+#undef ROWS_EVEN
+#undef ROWS_ODD
 
-static u16x8 load_widen(const uint8_t *p)
-{
-    u8x8 v;
-    memcpy(&v, p, sizeof v);
-    return __builtin_convertvector(v, u16x8);
-}
-
-static u16x8 load8(const uint16_t *p)
-{
-    u16x8 v;
-    memcpy(&v, p, sizeof v);
-    return v;
-}
-
-/* even and odd lanes of the 16 lanes a:b */
-#define EVEN(a, b) __builtin_shufflevector(a, b, 0, 2, 4, 6, 8, 10, 12, 14)
-#define ODD(a, b) __builtin_shufflevector(a, b, 1, 3, 5, 7, 9, 11, 13, 15)
+#ifdef PYR_WIDE
+#define ROWS_LANES 16
+#define ROWS_NAME(x) x##_16
+#define ROWS_TARGET __attribute__((target("avx2")))
+#define ROWS_EVEN(a, b)                                                        \
+    __builtin_shufflevector(a, b, 0, 2, 4, 6, 8, 10, 12, 14, 16, 18, 20, 22, 24, 26, 28, 30)
+#define ROWS_ODD(a, b)                                                         \
+    __builtin_shufflevector(a, b, 1, 3, 5, 7, 9, 11, 13, 15, 17, 19, 21, 23, 25, 27, 29, 31)
+#include "pyramid_rows.h"
+#undef ROWS_LANES
+#undef ROWS_NAME
+#undef ROWS_TARGET
+#undef ROWS_EVEN
+#undef ROWS_ODD
 #endif
 
-/* One output row: the five source rows summed with weights 1 4 6 4 1 into
- * t[0 .. w-1] (at most 16 * 255, fits 16 bits). */
-static void column_sums(const uint8_t *restrict r0, const uint8_t *restrict r1,
-                        const uint8_t *restrict r2, const uint8_t *restrict r3,
-                        const uint8_t *restrict r4, uint16_t *restrict t, int w)
+static int cpu_wide(void)
 {
-    int x = 0;
-#ifdef PYR_VECTOR
-    for (; x + 8 <= w; x += 8) {
-        u16x8 s = load_widen(r0 + x) + load_widen(r4 + x) +
-                  4 * (load_widen(r1 + x) + load_widen(r3 + x)) +
-                  6 * load_widen(r2 + x);
-        memcpy(t + x, &s, sizeof s);
-    }
+#ifdef PYR_WIDE
+    __builtin_cpu_init();
+    return __builtin_cpu_supports("avx2") ? 1 : 0;
+#else
+    return 0;
 #endif
-    for (; x < w; x++)
-        t[x] = (uint16_t)(r0[x] + r4[x] + 4 * (r1[x] + r3[x]) + 6 * r2[x]);
 }
 
-/* o[i] = round(sum of t[2i-2 .. 2i+2] weighted 1 4 6 4 1 / 256) for i < n;
- * t must be readable from index -2 to 2n + 1. The sum plus 128 is at most
- * 256 * 255 + 128 < 2^16, so 16-bit lanes are exact. */
-static void row_reduce(const uint16_t *restrict t, uint8_t *restrict o, int n)
+int mb_pyramid_use_wide(mb_pyramid *pyr, int on)
 {
-    int i = 0;
-#ifdef PYR_VECTOR
-    for (; i + 8 <= n; i += 8) {
-        const uint16_t *c = t + 2 * i;
-        u16x8 a0 = load8(c - 2), b0 = load8(c + 6);  /* t[c-2 .. c+13] */
-        u16x8 a2 = load8(c), b2 = load8(c + 8);      /* t[c .. c+15] */
-        u16x8 a4 = load8(c + 2), b4 = load8(c + 10); /* t[c+2 .. c+17] */
-        u16x8 s = EVEN(a0, b0) + EVEN(a4, b4) +
-                  4 * (ODD(a0, b0) + ODD(a2, b2)) + 6 * EVEN(a2, b2) + 128;
-        u8x8 b = __builtin_convertvector(s >> 8, u8x8);
-        memcpy(o + i, &b, sizeof b);
-    }
-#endif
-    for (; i < n; i++) {
-        const uint16_t *c = t + 2 * i;
-        uint32_t s =
-            (uint32_t)c[-2] + c[2] + 4u * ((uint32_t)c[-1] + c[1]) + 6u * c[0];
-        o[i] = (uint8_t)((s + 128u) >> 8);
-    }
-}
-
-/* dst = decimate(binomial(src)); dst->width == (src->width + 1) / 2 etc.
- * row: scratch of src->width + 6 entries. */
-static void reduce(const mb_image *src, mb_image *dst, uint16_t *row)
-{
-    const int w = src->width, h = src->height;
-    uint16_t *t = row + 2; /* t[-2] .. t[w + 1] valid */
-    for (int j = 0; j < dst->height; j++) {
-        const uint8_t *r[5];
-        for (int k = 0; k < 5; k++)
-            r[k] = src->pixels +
-                   (size_t)clampi(2 * j - 2 + k, 0, h - 1) * src->stride;
-        column_sums(r[0], r[1], r[2], r[3], r[4], t, w);
-        /* clamp to the nearest edge column */
-        t[-2] = t[-1] = t[0];
-        t[w] = t[w + 1] = t[w - 1];
-        row_reduce(t, dst->pixels + (size_t)j * dst->stride, dst->width);
-    }
+    if (!pyr)
+        return 0;
+    pyr->wide = on && cpu_wide();
+    return pyr->wide;
 }
 
 int mb_pyramid_build(mb_pyramid *pyr, const mb_image *frame)
@@ -198,8 +173,15 @@ int mb_pyramid_build(mb_pyramid *pyr, const mb_image *frame)
     if (frame->width != pyr->width || frame->height != pyr->height)
         return MB_ESIZE;
     pyr->level[0] = *frame;
-    for (int l = 1; l < pyr->levels; l++)
-        reduce(&pyr->level[l - 1], &pyr->level[l], pyr->row);
+    for (int l = 1; l < pyr->levels; l++) {
+#ifdef PYR_WIDE
+        if (pyr->wide) {
+            reduce_16(&pyr->level[l - 1], &pyr->level[l], pyr->rows);
+            continue;
+        }
+#endif
+        reduce_8(&pyr->level[l - 1], &pyr->level[l], pyr->rows);
+    }
     return MB_OK;
 }
 

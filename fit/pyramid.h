@@ -56,6 +56,16 @@ int mb_pyramid_create(int width, int height, int levels, mb_pyramid **out);
  */
 int mb_pyramid_build(mb_pyramid *pyr, const mb_image *frame);
 
+/**
+ * Choose the kernels: on (the default) uses 32-byte vectors when the CPU
+ * has them (AVX2 on x86), off the 16-byte ones every supported CPU has.
+ * Both make the same levels to the bit; this exists so that tests can
+ * compare them and benchmarks time both.
+ * Return value: 1 when the 32-byte kernels are now in use, else 0 (also
+ * for a NULL pyr).
+ */
+int mb_pyramid_use_wide(mb_pyramid *pyr, int on);
+
 /** Free the workspace. NULL-safe. */
 void mb_pyramid_close(mb_pyramid *pyr);
 

@@ -15,7 +15,7 @@
  * largest distance to the generator's true outline; allocations counted
  * over the timed frames (must be 0); one memcpy of the frame as the floor.
  *
- * usage: bench_search [RUNS]   (default 20)
+ * usage: bench_search [RUNS [FAMILY]]   (default 20, every family)
  * Registered under ctest with the label "bench"; it skips itself (exit 77)
  * when run from ctest unless MB_BENCH=1 is set:
  *     MB_BENCH=1 ctest --test-dir build -L bench -V
@@ -82,8 +82,9 @@ int main(int argc, char **argv)
         return 77;
     }
     const int runs = argc > 1 ? atoi(argv[1]) : 20;
-    if (runs < 1) {
-        fprintf(stderr, "usage: bench_search [RUNS]\n");
+    const int only = argc > 2 ? mb_synth_family_from_name(argv[2]) : -1;
+    if (runs < 1 || (argc > 2 && only < 0)) {
+        fprintf(stderr, "usage: bench_search [RUNS [FAMILY]]\n");
         return 2;
     }
     openblas_set_num_threads(1); /* the station runs BLAS on one core */
@@ -106,7 +107,7 @@ int main(int argc, char **argv)
     printf("bench_search: %d x %d frames, %d levels, %d landmarks, %d parts x %d "
            "runs per family and lighting, one core\n", W, H, LEVELS, POINTS, PARTS, runs);
     for (int fam = 0; fam < MB_SYNTH_N_FAMILIES; fam++)
-        for (int light = 0; light < 2; light++) {
+        for (int light = 0; light < 2 && (only < 0 || fam == only); light++) {
             mb_synth_config cfg;
             mb_synth_config_default(&cfg, (mb_synth_family)fam);
             cfg.width = W;
@@ -198,13 +199,27 @@ int main(int argc, char **argv)
             stats(t_lf, total, &m_lf, &p_lf);
             stats(t_all, total, &m_all, &p_all);
             stats(t_cpy, total, &m_cpy, &p_cpy);
+            /* the same builds with the 16-byte kernels (fit/pyramid.h) */
+            const int wide = mb_pyramid_use_wide(t.pyr, 1);
+            mb_pyramid_use_wide(t.pyr, 0);
+            for (q = 0; q < total; q++) {
+                double a = now_ms();
+                mb_pyramid_build(t.pyr, &frames[q % PARTS]);
+                t_pyr[q] = now_ms() - a;
+            }
+            mb_pyramid_use_wide(t.pyr, 1);
+            double m_pyr16, p_pyr16;
+            stats(t_pyr, total, &m_pyr16, &p_pyr16);
             const int ok = total - failed;
             printf("\n%s, %s-lit (%d modes, taught from %d frames in %.1f s): %d of %d "
                    "runs failed, %d not converged\n", mb_synth_family_name(fam),
                    mb_synth_lighting_name(cfg.lighting), mb_shape_model_n_modes(t.sm),
                    t.n_used, teach_ms / 1e3, failed, total, notconv);
             printf("  %-28s median %7.3f ms   p99 %7.3f ms\n", "memcpy of the frame", m_cpy, p_cpy);
-            printf("  %-28s median %7.3f ms   p99 %7.3f ms\n", "pyramid build", m_pyr, p_pyr);
+            printf("  %-28s median %7.3f ms   p99 %7.3f ms\n",
+                   wide ? "pyramid build (32-byte)" : "pyramid build", m_pyr, p_pyr);
+            printf("  %-28s median %7.3f ms   p99 %7.3f ms\n", "pyramid build (16-byte)",
+                   m_pyr16, p_pyr16);
             printf("  %-28s median %7.3f ms   p99 %7.3f ms\n", "locate", m_loc, p_loc);
             printf("  %-28s median %7.3f ms   p99 %7.3f ms\n", "search + measurement", m_fit, p_fit);
             printf("  %-28s median %7.3f ms   p99 %7.3f ms\n", "locate + search + measure", m_lf, p_lf);

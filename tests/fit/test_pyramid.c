@@ -49,42 +49,51 @@ static void fill_random(mb_image *img, uint64_t seed)
                 (uint8_t)(256 * scene_uniform(&seed));
 }
 
+/* Both kernel widths (mb_pyramid_use_wide) against the definition; the
+ * second pass repeats the 16-byte kernels on a CPU without AVX2. */
 static void test_levels_match_definition(void **state)
 {
     (void)state;
-    /* sizes: tiny, odd, not multiples of the 8- and 16-column blocks */
-    const int sizes[][2] = {{1, 1},   {2, 3},   {5, 4},    {7, 9},   {16, 16},
-                            {17, 33}, {64, 48}, {101, 77}, {250, 13}};
-    for (size_t s = 0; s < sizeof sizes / sizeof sizes[0]; s++) {
-        int w = sizes[s][0], h = sizes[s][1];
-        mb_image img;
-        assert_int_equal(mb_image_alloc(w, h, &img), 0);
-        fill_random(&img, 1000 + s);
-        mb_pyramid *pyr;
-        assert_int_equal(mb_pyramid_create(w, h, 4, &pyr), 0);
-        assert_int_equal(mb_pyramid_build(pyr, &img), 0);
-        assert_int_equal(mb_pyramid_levels(pyr), 4);
-        assert_ptr_equal(mb_pyramid_level(pyr, 0)->pixels, img.pixels);
-        int ew = w, eh = h;
-        for (int l = 1; l < 4; l++) {
-            const mb_image *src = mb_pyramid_level(pyr, l - 1),
-                           *lv = mb_pyramid_level(pyr, l);
-            ew = (ew + 1) / 2;
-            eh = (eh + 1) / 2;
-            assert_int_equal(lv->width, ew);
-            assert_int_equal(lv->height, eh);
-            int bad = 0;
-            for (int j = 0; j < eh; j++)
-                for (int i = 0; i < ew; i++)
-                    bad += lv->pixels[(size_t)j * lv->stride + i] !=
-                           reference_pixel(src, i, j);
-            assert_int_equal(bad, 0);
+    /* sizes: tiny, odd, not multiples of the 8-, 16- and 32-column blocks,
+       odd and even heights (rows are made two at a time) */
+    const int sizes[][2] = {{1, 1},   {2, 3},   {5, 4},    {7, 9},    {16, 16},
+                            {17, 33}, {64, 48}, {101, 77}, {250, 13}, {97, 2},
+                            {129, 35}, {330, 18}};
+    for (int wide = 0; wide < 2; wide++)
+        for (size_t s = 0; s < sizeof sizes / sizeof sizes[0]; s++) {
+            int w = sizes[s][0], h = sizes[s][1];
+            mb_image img;
+            assert_int_equal(mb_image_alloc(w, h, &img), 0);
+            fill_random(&img, 1000 + s);
+            mb_pyramid *pyr;
+            assert_int_equal(mb_pyramid_create(w, h, 4, &pyr), 0);
+            int on = mb_pyramid_use_wide(pyr, wide);
+            assert_true(on == 0 || wide);
+            if (s == 0)
+                printf("pyramid kernels: %s\n", on ? "32-byte (AVX2)" : "16-byte");
+            assert_int_equal(mb_pyramid_build(pyr, &img), 0);
+            assert_int_equal(mb_pyramid_levels(pyr), 4);
+            assert_ptr_equal(mb_pyramid_level(pyr, 0)->pixels, img.pixels);
+            int ew = w, eh = h;
+            for (int l = 1; l < 4; l++) {
+                const mb_image *src = mb_pyramid_level(pyr, l - 1),
+                               *lv = mb_pyramid_level(pyr, l);
+                ew = (ew + 1) / 2;
+                eh = (eh + 1) / 2;
+                assert_int_equal(lv->width, ew);
+                assert_int_equal(lv->height, eh);
+                int bad = 0;
+                for (int j = 0; j < eh; j++)
+                    for (int i = 0; i < ew; i++)
+                        bad += lv->pixels[(size_t)j * lv->stride + i] !=
+                               reference_pixel(src, i, j);
+                assert_int_equal(bad, 0);
+            }
+            assert_null(mb_pyramid_level(pyr, 4));
+            assert_null(mb_pyramid_level(pyr, -1));
+            mb_pyramid_close(pyr);
+            mb_image_free(&img);
         }
-        assert_null(mb_pyramid_level(pyr, 4));
-        assert_null(mb_pyramid_level(pyr, -1));
-        mb_pyramid_close(pyr);
-        mb_image_free(&img);
-    }
 }
 
 /* Level 0 may be any view with a stride: a sub-rectangle of a bigger image
@@ -270,6 +279,7 @@ static void test_errors(void **state)
     assert_int_equal(mb_pyramid_build(pyr, &none), MB_EINVAL);
     assert_int_equal(mb_pyramid_levels(NULL), 0);
     assert_null(mb_pyramid_level(NULL, 0));
+    assert_int_equal(mb_pyramid_use_wide(NULL, 1), 0);
     mb_pyramid_close(pyr);
     mb_pyramid_close(NULL);
     mb_image_free(&img);
