@@ -8,7 +8,6 @@
 #include "file_list.h"
 #include "report.h"
 
-#include <cblas.h>
 #include <errno.h>
 #include <math.h>
 #include <stdio.h>
@@ -80,9 +79,6 @@ int mb_cmd_report(int argc, char **argv)
     }
     if (!logs)
         return mb_cli_usage_error("report", "--logs DIR is required");
-    /* no BLAS here: keep OpenBLAS's idle worker threads from competing
-       with the reading thread for the cores */
-    openblas_set_num_threads(1);
     mb_report_filter filter = {shift, date, NAN, NAN};
     if (from_s && parse_local("--from", from_s, &filter.from, err))
         return mb_cli_usage_error("report", err);
