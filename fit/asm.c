@@ -41,6 +41,13 @@
 #include <stdlib.h>
 #include <string.h>
 
+/* A level has also converged when at least CONV_FLOOR of the landmarks
+   matched within the central half and the iteration moved no landmark by
+   more than CONV_STILL px of that level: on a textured belt or under
+   uneven light a few landmarks keep their best match off-centre at every
+   iteration while the outline stands still (see asm.h). */
+#define CONV_FLOOR 0.5
+#define CONV_STILL 0.05
 /* Gauss-Newton steps of the final fit, and its prior on b (px^2 per
    sd^2; see fit_measured). */
 #define FIT_STEPS 8
@@ -48,16 +55,27 @@
 #define FIT_DAMP 1e-9
 #define FIT_TRUST 2.0
 #define FIT_TOL 1e-3
+/* The tangent line through a measured point stands for the outline only
+   near it: a landmark that slides s px along an outline of curvature kappa
+   leaves that line by kappa s^2 / 2. A step may slide a landmark until that
+   reaches FIT_BEND px, and never more than FIT_SLIDE px. */
+#define FIT_SLIDE 8.0
+#define FIT_BEND 0.25
 /* Measure-and-fit rounds at full resolution: another round while the fit
    slid a landmark along the outline by more than MEASURE_MOVE px (the
    tangent line then misses a curve of radius R by MEASURE_MOVE^2 / 2R:
    0.03 px on a 16 px bolt hole). */
 #define MEASURE_ROUNDS 3
 #define MEASURE_MOVE 1.0
-/* Following a measured outline (see follow): rounds, and how many
-   landmarks along the outline a landmark may have slid. */
-#define FOLLOW_ROUNDS 12
+/* Following a measured outline (see follow): rounds, how many landmarks
+   along the outline a landmark may have slid, and the Gauss-Newton steps of
+   one round with their slide limits: the polyline is crossed again after
+   every round, so the tangent lines need only hold for one round's steps. */
+#define FOLLOW_ROUNDS 32
 #define FOLLOW_WINDOW 24
+#define FOLLOW_STEPS 2
+#define FOLLOW_SLIDE 16.0
+#define FOLLOW_BEND 1.0
 
 struct mb_asm {
     const mb_shape_model *sm;
@@ -85,6 +103,7 @@ struct mb_asm {
     double *gn_a, *gn_g; /* final fit: (4+k)^2, 4+k */
     double *gn_r, *gn_res; /* final fit: n x (4+k), n */
     double *poly;     /* 2n: a measured outline being followed */
+    double *prev;     /* 2n: the outline before a search iteration's fit */
     uint8_t *pvalid;  /* n */
     int *seg;         /* n: polyline segment (index along its outline, may
                          run past either end) a landmark crossed last */
@@ -144,6 +163,7 @@ void mb_asm_close(mb_asm *a)
     free(a->gn_r);
     free(a->gn_res);
     free(a->poly);
+    free(a->prev);
     free(a->pvalid);
     free(a->seg);
     free(a->valid);
@@ -267,6 +287,7 @@ int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
     a->gn_r = take(a, n * (4 + k), sizeof(double));
     a->gn_res = take(a, n, sizeof(double));
     a->poly = take(a, d, sizeof(double));
+    a->prev = take(a, d, sizeof(double));
     a->pvalid = take(a, n, 1);
     a->seg = take(a, n, sizeof(int));
     a->valid = take(a, n, 1);
@@ -304,7 +325,8 @@ int mb_asm_create(const mb_shape_model *sm, const mb_profile_model *pm,
     }
     if (!a->b || !a->b_best || !a->b_sd || !a->xm || !a->pts || !a->nrm ||
         !a->target || !a->meas || !a->dist || !a->absd || !a->kappa || !a->gn_a || !a->gn_g ||
-        !a->sd || !a->gn_r || !a->gn_res || !a->poly || !a->pvalid || !a->seg || !a->valid ||
+        !a->sd || !a->gn_r || !a->gn_res || !a->poly || !a->prev || !a->pvalid || !a->seg ||
+        !a->valid ||
         !a->use || !a->fit_work || !a->grey || !a->diff || !a->g ||
         !a->cwork || !a->cost)
         goto fail;
@@ -422,6 +444,17 @@ static int search_level(mb_asm *a, const mb_pyramid *pyr, int level,
             return -1;
         if (frac >= a->p.conv_fraction)
             return 1;
+        if (frac >= CONV_FLOOR) {
+            /* standing still: iterate left the outline it started from in
+               pts; place the fitted one and compare */
+            memcpy(a->prev, a->pts, sizeof *a->pts * (size_t)a->dim);
+            place(a, pose);
+            double mv = 0.0;
+            for (int i = 0; i < a->n; i++)
+                mv = fmax(mv, sq_dist(a->prev + 2 * i, a->pts + 2 * i));
+            if (mv <= CONV_STILL * CONV_STILL * (double)(1 << level) * (double)(1 << level))
+                return 1;
+        }
     }
     return 0;
 }
@@ -779,18 +812,22 @@ static int solve_spd(double *A, double *g, int dim)
  * the model's own, b ~ N(0, lambda), weighted by the variance of one
  * measured point (~0.03^2 px^2): the maximum a posteriori fit, which
  * leaves every b the outline can see as the measurement says and settles
- * the others at 0. A step that would move a
- * landmark more than FIT_TRUST px is shortened to that (a trust region:
- * the tangent lines hold only near the measured points). b is bounded by
+ * the others at 0. A step is shortened (a trust region: the tangent lines
+ * hold only near the measured points) until no landmark moves more than
+ * FIT_TRUST px across the outline, nor slides along it more than tr_slide
+ * px or so far that it would leave its tangent line by tr_bend px on the
+ * outline's curvature (kappa s^2 / 2 for a slide s; kappa from the last
+ * measure). At most `steps` steps. b is bounded by
  * b_limit sd after each step. Leaves the outline placed; *clamped: modes on
  * the bound.
  */
-static int fit_measured(mb_asm *a, mb_pose *pose, int *clamped)
+static int fit_measured(mb_asm *a, mb_pose *pose, int *clamped, int steps,
+                        double tr_slide, double tr_bend)
 {
     const int k = a->k, dim = 4 + k, d = a->dim, n = a->n;
     const double *modes = mb_shape_model_modes(a->sm);
     double *A = a->gn_a, *g = a->gn_g, *R = a->gn_r, *res = a->gn_res;
-    for (int it = 0; it < FIT_STEPS; it++) {
+    for (int it = 0; it < steps; it++) {
         const double c = cos(pose->angle) * pose->scale, sn = sin(pose->angle) * pose->scale;
         /* rows n_i . J_i of the used landmarks, column-major m x dim (ld n),
            and their residuals */
@@ -834,7 +871,7 @@ static int fit_measured(mb_asm *a, mb_pose *pose, int *clamped)
         /* trust region: no landmark may move more than FIT_TRUST px in
            one step (the linearisation and the tangent lines hold only
            that far) */
-        double far = 0.0;
+        double far = 0.0, worst = 0.0;
         for (int i = 0; i < n; i++) {
             const double px = a->pts[2 * i] - pose->tx, py = a->pts[2 * i + 1] - pose->ty;
             double ux = 0.0, uy = 0.0; /* mode motion in the model frame */
@@ -846,9 +883,17 @@ static int fit_measured(mb_asm *a, mb_pose *pose, int *clamped)
             double mx = g[0] - g[2] * py + g[3] * px + c * ux - sn * uy;
             double my = g[1] + g[2] * px + g[3] * py + sn * ux + c * uy;
             far = fmax(far, mx * mx + my * my);
+            /* across the outline (normal) and along it (slide) */
+            const double nx = a->nrm[2 * i], ny = a->nrm[2 * i + 1];
+            const double mn = mx * nx + my * ny, mt = my * nx - mx * ny;
+            const double kap = fabs(a->kappa[i]);
+            const double slide2 = kap * tr_slide * tr_slide > 2.0 * tr_bend
+                                      ? 2.0 * tr_bend / kap : tr_slide * tr_slide;
+            worst = fmax(worst, fmax(mn * mn * (1.0 / (FIT_TRUST * FIT_TRUST)),
+                                     mt * mt / slide2));
         }
         far = sqrt(far);
-        double shrink = far > FIT_TRUST ? FIT_TRUST / far : 1.0;
+        double shrink = worst > 1.0 ? 1.0 / sqrt(worst) : 1.0;
         for (int q = 0; q < dim; q++)
             g[q] *= shrink;
         pose->tx += g[0];
@@ -1085,7 +1130,7 @@ int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
         memcpy(a->b_best, a->b, kb);
         memcpy(a->target, a->pts, (size_t)a->dim * sizeof *a->pts);
         int clamped = 0;
-        int rc = fit_measured(a, &pose, &clamped);
+        int rc = fit_measured(a, &pose, &clamped, FIT_STEPS, FIT_SLIDE, FIT_BEND);
         if (rc == MB_OK) {
             distances(a);
             int nv = 0;
@@ -1100,7 +1145,7 @@ int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
                 out += a->valid[i] && !a->use[i];
             }
             if (out > 0 && nv - out >= 3)
-                rc = fit_measured(a, &pose, &clamped);
+                rc = fit_measured(a, &pose, &clamped, FIT_STEPS, FIT_SLIDE, FIT_BEND);
             res->n_outliers = out;
             res->clamped = clamped;
         }
@@ -1137,7 +1182,8 @@ int mb_asm_search(mb_asm *a, const mb_pyramid *pyr, const mb_pose *starts,
             if (follow(a) < 3)
                 break;
             memcpy(a->target, a->pts, (size_t)a->dim * sizeof *a->pts);
-            if (fit_measured(a, &pose, &clamped) != MB_OK)
+            if (fit_measured(a, &pose, &clamped, FOLLOW_STEPS, FOLLOW_SLIDE, FOLLOW_BEND) !=
+                MB_OK)
                 break; /* the image measurement below decides */
             double step = 0.0;
             for (int i = 0; i < a->n; i++)

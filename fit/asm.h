@@ -18,7 +18,11 @@
  *          deviations on the coarser levels and b_limit on the finest;
  *       3. the level has converged when at least conv_fraction of the
  *          landmarks found their best match within the central half of the
- *          range (|shift| <= ns / 2); else repeat, up to max_iter times;
+ *          range (|shift| <= ns / 2), or when at least half did and the
+ *          fit moved no landmark by more than 0.05 px of that level (a
+ *          textured belt or uneven light keeps a few landmarks off-centre
+ *          at every iteration while the outline stands still); else
+ *          repeat, up to max_iter times;
  *   - every start pose is searched on the coarsest level for at most
  *     start_iter iterations; the one whose landmarks end with the least mean
  *     profile cost is kept, finishes its coarsest level (up to max_iter in

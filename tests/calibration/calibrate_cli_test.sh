@@ -10,10 +10,7 @@ mb=$1
 driver=$2
 tmp=$3
 rm -rf "$tmp" && mkdir -p "$tmp"
-pass=0
-fail=0
-ok() { pass=$((pass + 1)); }
-bad() { fail=$((fail + 1)); echo "FAIL: $*"; }
+. "$(dirname "$0")/../check.sh"
 
 # expect CODE DESCRIPTION -- command...
 expect() {

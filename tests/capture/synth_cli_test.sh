@@ -6,10 +6,7 @@ set -u
 mb=$1
 tmp=$2
 rm -rf "$tmp" && mkdir -p "$tmp"
-pass=0
-fail=0
-ok() { pass=$((pass + 1)); }
-bad() { fail=$((fail + 1)); echo "FAIL: $*"; }
+. "$(dirname "$0")/../check.sh"
 
 # expect CODE DESCRIPTION -- command...
 expect() {

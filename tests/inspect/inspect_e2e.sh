@@ -11,10 +11,7 @@ fam=$3
 light=$4
 max_fr=${5:-1}
 rm -rf "$tmp" && mkdir -p "$tmp"
-pass=0
-fail=0
-ok() { pass=$((pass + 1)); }
-bad() { fail=$((fail + 1)); echo "FAIL: $*"; }
+. "$(dirname "$0")/../check.sh"
 
 size=640x512
 "$mb" synth --family "$fam" --count 30 --seed 21 --size $size --lighting "$light" \

@@ -21,10 +21,7 @@ gauges=$3
 py=$4
 here=$(dirname "$0")
 rm -rf "$tmp" && mkdir -p "$tmp"
-pass=0
-fail=0
-ok() { pass=$((pass + 1)); }
-bad() { fail=$((fail + 1)); echo "FAIL: $*"; }
+. "$(dirname "$0")/../check.sh"
 has() { if grep -q -- "$2" "$1"; then ok; else bad "$3: '$2' not in $1"; fi; }
 
 # calib FILE WIDTH HEIGHT PX_PER_MM: a calibration document of a camera

@@ -14,10 +14,7 @@ plugdir=$3
 redirect=$4
 gauges=$5
 rm -rf "$tmp" && mkdir -p "$tmp"
-pass=0
-fail=0
-ok() { pass=$((pass + 1)); }
-bad() { fail=$((fail + 1)); echo "FAIL: $*"; }
+. "$(dirname "$0")/../check.sh"
 pid=""
 cleanup() { [ -n "$pid" ] && kill -KILL "$pid" 2>/dev/null; }
 trap cleanup EXIT

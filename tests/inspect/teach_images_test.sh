@@ -6,10 +6,7 @@ set -u
 mb=$1
 tmp=$2
 rm -rf "$tmp" && mkdir -p "$tmp"
-pass=0
-fail=0
-ok() { pass=$((pass + 1)); }
-bad() { fail=$((fail + 1)); echo "FAIL: $*"; }
+. "$(dirname "$0")/../check.sh"
 has() { if grep -q -- "$2" "$1"; then ok; else bad "$3: '$2' not found"; cat "$1"; fi; }
 
 d="$tmp/set"
