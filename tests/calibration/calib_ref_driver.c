@@ -37,30 +37,6 @@ static const double poses[NF][3] = {
 static const double test_pts[5][2] = {
     {399.5, 299.5}, {150, 110}, {650, 110}, {150, 490}, {650, 490}};
 
-static void pose(rt_scene *sc, const mb_target *t, double a, double dx,
-                 double dy)
-{
-    double mx = 0.5 * (t->cols - 1) * t->pitch,
-           my = 0.5 * (t->rows - 1) * t->pitch;
-    double r = a * M_PI / 180.0;
-    sc->angle_deg = a;
-    sc->shift_mm[0] = mx + dx - (cos(r) * mx - sin(r) * my);
-    sc->shift_mm[1] = my + dy - (sin(r) * mx + cos(r) * my);
-}
-
-static void base_scene(rt_scene *sc)
-{
-    rt_scene_default(sc);
-    sc->tilt_x_deg = 8.0;
-    sc->tilt_y_deg = -5.0;
-    sc->roll_deg = 3.0;
-    sc->k[0] = -0.08;
-    sc->k[1] = 0.02;
-    sc->k[2] = 0.002;
-    sc->k[3] = -0.001;
-    sc->blur = 0.7;
-}
-
 static cJSON *pair(double a, double b)
 {
     cJSON *p = cJSON_CreateArray();
@@ -91,7 +67,7 @@ static int render_set(const char *dir, const char *name, rt_scene sc,
     cJSON_AddItemToArray(sets, set);
     for (int f = 0; f < NF; f++) {
         mb_image im;
-        pose(&sc, t, poses[f][0], poses[f][1], poses[f][2]);
+        rt_scene_pose(&sc, t, poses[f][0], poses[f][1], poses[f][2]);
         sc.seed = 1000 + 17 * f;
         if (rt_render(&sc, t, &im) < 0)
             return -1;
@@ -170,7 +146,7 @@ int main(int argc, char **argv)
     if (mb_target_init(7, 9, 10.0, &t, err) < 0)
         return 1;
     rt_scene sc;
-    base_scene(&sc);
+    rt_scene_tilted(&sc);
     cJSON *root = cJSON_CreateObject(), *sets = cJSON_CreateArray();
     cJSON_AddNumberToObject(root, "width", sc.width);
     cJSON_AddNumberToObject(root, "height", sc.height);
@@ -189,7 +165,7 @@ int main(int argc, char **argv)
     cJSON *tp = cJSON_AddArrayToObject(root, "test_points");
     cJSON *ts = cJSON_AddArrayToObject(root, "truth_scale");
     cJSON *tpl = cJSON_AddArrayToObject(root, "truth_plane");
-    pose(&sc, &t, 0, 0, 0);
+    rt_scene_pose(&sc, &t, 0, 0, 0);
     for (int i = 0; i < 5; i++) {
         double X, Y;
         cJSON_AddItemToArray(tp, pair(test_pts[i][0], test_pts[i][1]));

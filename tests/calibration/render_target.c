@@ -26,6 +26,28 @@ void rt_scene_default(rt_scene *sc)
     sc->seed = 1;
 }
 
+void rt_scene_tilted(rt_scene *sc)
+{
+    rt_scene_default(sc);
+    sc->tilt_x_deg = 8.0;
+    sc->tilt_y_deg = -5.0;
+    sc->roll_deg = 3.0;
+    sc->k[0] = -0.08;
+    sc->k[1] = 0.02;
+    sc->k[2] = 0.002;
+    sc->k[3] = -0.001;
+    sc->blur = 0.7;
+}
+
+void rt_scene_pose(rt_scene *sc, const mb_target *t, double a, double dx, double dy)
+{
+    double mx = 0.5 * (t->cols - 1) * t->pitch, my = 0.5 * (t->rows - 1) * t->pitch;
+    double r = a * M_PI / 180.0;
+    sc->angle_deg = a;
+    sc->shift_mm[0] = mx + dx - (cos(r) * mx - sin(r) * my);
+    sc->shift_mm[1] = my + dy - (sin(r) * mx + cos(r) * my);
+}
+
 static void rot_mul(const double a[9], const double b[9], double o[9])
 {
     double t[9];

@@ -57,6 +57,15 @@ typedef struct {
     no light fall-off, no blur, no noise, 8 x 8 samples, seed 1. */
 void rt_scene_default(rt_scene *sc);
 
+/** The tilted camera with lens distortion of the detection tests: the
+    defaults, tilted 8 deg about x, -5 deg about y, rolled 3 deg, distortion
+    k = (-0.08, 0.02, 0.002, -0.001), blur 0.7 px. */
+void rt_scene_tilted(rt_scene *sc);
+
+/** Pose the target in sc: turned about its centre by a degrees and the
+    centre moved by (dx, dy) mm (sets angle_deg and shift_mm). */
+void rt_scene_pose(rt_scene *sc, const mb_target *t, double a, double dx, double dy);
+
 /** The true plane (mm, frame-0 target coordinates) -> undistorted px
     homography of the scene, column-major, h[8] = 1. */
 void rt_homography(const rt_scene *sc, const mb_target *t, double h[9]);

@@ -346,19 +346,6 @@ static void test_validate(void **state)
 #define FR 3
 static const double poses[FR][3] = {{0, 0, 0}, {25, -20, 12}, {-70, 18, -10}};
 
-/* A scene posed with the target turned about its centre by a degrees and
-   the centre moved by (dx, dy) mm. */
-static void pose(rt_scene *sc, const mb_target *t, double a, double dx,
-                 double dy)
-{
-    double mx = 0.5 * (t->cols - 1) * t->pitch,
-           my = 0.5 * (t->rows - 1) * t->pitch;
-    double r = a * M_PI / 180.0;
-    sc->angle_deg = a;
-    sc->shift_mm[0] = mx + dx - (cos(r) * mx - sin(r) * my);
-    sc->shift_mm[1] = my + dy - (sin(r) * mx + cos(r) * my);
-}
-
 static void true_scene(rt_scene *sc)
 {
     rt_scene_default(sc);
@@ -384,7 +371,7 @@ static int fit(const mb_target *t, int centroids, int bias_passes, mb_calib *c,
             tq[2 * (r * t->cols + k) + 1] = r * t->pitch;
         }
     for (int f = 0; f < FR; f++) {
-        pose(&sc, t, poses[f][0], poses[f][1], poses[f][2]);
+        rt_scene_pose(&sc, t, poses[f][0], poses[f][1], poses[f][2]);
         for (int q = 0; q < N; q++) {
             double *o = obs + 2 * (N * f + q);
             if (centroids)
@@ -416,7 +403,7 @@ static int fit(const mb_target *t, int centroids, int bias_passes, mb_calib *c,
        area in frame 0 (h itself is compared through where it sends points:
        its entries mix units). */
     double htrue[9];
-    pose(&sc, t, 0, 0, 0);
+    rt_scene_pose(&sc, t, 0, 0, 0);
     rt_homography(&sc, t, htrue);
     *max_h_err = 0.0;
     for (int q = 0; q < N; q++) {
@@ -477,7 +464,7 @@ static void test_fit_exact(void **state)
     for (int q = 0; q < 63; q++) {
         tq[2 * q] = (q % 9) * 10.0;
         tq[2 * q + 1] = (q / 9) * 10.0;
-        pose(&sc, &t, 0, 0, 0);
+        rt_scene_pose(&sc, &t, 0, 0, 0);
         rt_project(&sc, &t, tq[2 * q], tq[2 * q + 1], &obs[2 * q],
                    &obs[2 * q + 1]);
     }

@@ -38,30 +38,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-static void pose(rt_scene *sc, const mb_target *t, double a, double dx,
-                 double dy)
-{
-    double mx = 0.5 * (t->cols - 1) * t->pitch,
-           my = 0.5 * (t->rows - 1) * t->pitch;
-    double r = a * M_PI / 180.0;
-    sc->angle_deg = a;
-    sc->shift_mm[0] = mx + dx - (cos(r) * mx - sin(r) * my);
-    sc->shift_mm[1] = my + dy - (sin(r) * mx + cos(r) * my);
-}
-
-static void base_scene(rt_scene *sc)
-{
-    rt_scene_default(sc);
-    sc->tilt_x_deg = 8.0;
-    sc->tilt_y_deg = -5.0;
-    sc->roll_deg = 3.0;
-    sc->k[0] = -0.08;
-    sc->k[1] = 0.02;
-    sc->k[2] = 0.002;
-    sc->k[3] = -0.001;
-    sc->blur = 0.7;
-}
-
 /* Render and detect; returns the detector's code. */
 static int render_detect(const rt_scene *sc, const mb_target *drawn,
                          const mb_target *asked, double *xy,
@@ -112,7 +88,7 @@ static void calibrate_scene(rt_scene sc, const char *what, double rms_max,
     double crms_all = 0.0, cworst_all = 0.0;
     for (int f = 0; f < NF; f++) {
         mb_detect_info info;
-        pose(&sc, &t, poses[f][0], poses[f][1], poses[f][2]);
+        rt_scene_pose(&sc, &t, poses[f][0], poses[f][1], poses[f][2]);
         sc.seed = 100 + f;
         int rc = render_detect(&sc, &t, &t, xy + 2 * N * f, &info, err);
         if (rc)
@@ -134,7 +110,7 @@ static void calibrate_scene(rt_scene sc, const char *what, double rms_max,
     if (rc)
         printf("%s: %s\n", what, err);
     assert_int_equal(rc, 0);
-    pose(&sc, &t, 0, 0, 0);
+    rt_scene_pose(&sc, &t, 0, 0, 0);
     const double pts[5][2] = {
         {399.5, 299.5}, {150, 110}, {650, 110}, {150, 490}, {650, 490}};
     double worst_scale = 0.0, worst_pos = 0.0, worst_trip = 0.0;
@@ -172,7 +148,7 @@ static void test_noise_free(void **state)
 {
     (void)state;
     rt_scene sc;
-    base_scene(&sc);
+    rt_scene_tilted(&sc);
     /* Issue 6: scale within 0.05 % of the truth, RMS under 0.05 px. */
     calibrate_scene(sc, "noise-free", 0.05, 0.02, 5e-4, 1e-3);
 }
@@ -181,7 +157,7 @@ static void test_noisy(void **state)
 {
     (void)state;
     rt_scene sc;
-    base_scene(&sc);
+    rt_scene_tilted(&sc);
     sc.noise = 2.0;
     sc.blur = 1.0;
     sc.vignette = 0.12;
@@ -207,13 +183,13 @@ static void test_orientation(void **state)
     char err[MB_ERR_LEN];
     double xy[2 * 81];
     rt_scene sc;
-    base_scene(&sc);
+    rt_scene_tilted(&sc);
     sc.width = 640;
     sc.height = 480;
     assert_int_equal(mb_target_init(7, 9, 10.0, &t, NULL), 0);
     /* Turned 180 and 270 degrees. */
     for (int a = 180; a <= 270; a += 90) {
-        pose(&sc, &t, a, 0, 0);
+        rt_scene_pose(&sc, &t, a, 0, 0);
         assert_int_equal(render_detect(&sc, &t, &t, xy, &info, err), 0);
         assert_true(dot_error(&sc, &t, xy, 0, 0) < 0.1);
         assert_true(dot_error(&sc, &t, xy, 0, 8) < 0.1);
@@ -223,7 +199,7 @@ static void test_orientation(void **state)
     mb_target sq;
     assert_int_equal(mb_target_init(8, 8, 8.0, &sq, NULL), 0);
     for (int a = 0; a < 360; a += 135) {
-        pose(&sc, &sq, a, 0, 0);
+        rt_scene_pose(&sc, &sq, a, 0, 0);
         assert_int_equal(render_detect(&sc, &sq, &sq, xy, &info, err), 0);
         assert_int_equal(info.mirrored, 0);
         assert_true(dot_error(&sc, &sq, xy, 0, 0) < 0.1);
@@ -231,7 +207,7 @@ static void test_orientation(void **state)
         assert_true(dot_error(&sc, &sq, xy, 7, 6) < 0.1);
     }
     /* A mirrored image (camera set to flip): found, flagged, right dots. */
-    pose(&sc, &t, 10, 0, 0);
+    rt_scene_pose(&sc, &t, 10, 0, 0);
     mb_image im, fl;
     assert_int_equal(rt_render(&sc, &t, &im), 0);
     assert_int_equal(mb_image_alloc(im.width, im.height, &fl), 0);
@@ -271,7 +247,7 @@ static void test_refusals(void **state)
     char err[MB_ERR_LEN];
     double xy[2 * 100];
     rt_scene sc;
-    base_scene(&sc);
+    rt_scene_tilted(&sc);
     sc.width = 640;
     sc.height = 480;
     sc.noise = 1.0;
@@ -293,12 +269,12 @@ static void test_refusals(void **state)
     mb_image_free(&im);
 
     /* Cut by the frame edge. */
-    pose(&sc, &t, 0, -60, 0);
+    rt_scene_pose(&sc, &t, 0, -60, 0);
     rc = render_detect(&sc, &t, &t, xy, &info, err);
     expect(rc, &info, err, MB_EEDGE, MB_DETECT_PARTIAL, "partly");
 
     /* One dot covered (painted white). */
-    pose(&sc, &t, 5, 0, 0);
+    rt_scene_pose(&sc, &t, 5, 0, 0);
     assert_int_equal(rt_render(&sc, &t, &im), 0);
     {
         double x, y;
@@ -313,7 +289,7 @@ static void test_refusals(void **state)
     mb_image_free(&im);
 
     /* Grid size: fewer and more than drawn. */
-    pose(&sc, &t, 0, 0, 0);
+    rt_scene_pose(&sc, &t, 0, 0, 0);
     assert_int_equal(mb_target_init(6, 9, 10.0, &other, NULL), 0);
     rc = render_detect(&sc, &t, &other, xy, &info, err);
     expect(rc, &info, err, MB_ESIZE, MB_DETECT_GRID_SIZE, "7 x 9 dots");
@@ -353,8 +329,8 @@ static void test_refusals(void **state)
     mb_target small;
     assert_int_equal(mb_target_init(5, 6, 6.0, &small, NULL), 0);
     rt_scene a = sc, b = sc;
-    pose(&a, &small, 0, -40, 0);
-    pose(&b, &small, 0, 40, 0);
+    rt_scene_pose(&a, &small, 0, -40, 0);
+    rt_scene_pose(&b, &small, 0, 40, 0);
     mb_image ia, ib;
     assert_int_equal(rt_render(&a, &small, &ia), 0);
     assert_int_equal(rt_render(&b, &small, &ib), 0);
@@ -390,17 +366,17 @@ static void test_two_planes(void **state)
     char err[MB_ERR_LEN];
     assert_int_equal(mb_target_init(7, 9, 10.0, &t, NULL), 0);
     rt_scene sc;
-    base_scene(&sc);
+    rt_scene_tilted(&sc);
     double tq[2 * 63], xy[2 * 63 * 2];
     for (int q = 0; q < 63; q++) {
         tq[2 * q] = (q % 9) * 10.0;
         tq[2 * q + 1] = (q / 9) * 10.0;
     }
     mb_detect_info info;
-    pose(&sc, &t, 0, -15, 0);
+    rt_scene_pose(&sc, &t, 0, -15, 0);
     assert_int_equal(render_detect(&sc, &t, &t, xy, &info, err), 0);
     sc.height_mm = 240.0;
-    pose(&sc, &t, 30, 15, 0);
+    rt_scene_pose(&sc, &t, 30, 15, 0);
     assert_int_equal(render_detect(&sc, &t, &t, xy + 126, &info, err), 0);
     mb_calib_problem P = {800, 600, 2, 63, tq, xy, 2.5, 7, 9, 10.0};
     mb_calib c;
