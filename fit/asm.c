@@ -868,9 +868,9 @@ static int fit_measured(mb_asm *a, mb_pose *pose, int *clamped, int steps,
         int rc = solve_spd(A, g, dim);
         if (rc != MB_OK)
             return rc;
-        /* trust region: no landmark may move more than FIT_TRUST px in
-           one step (the linearisation and the tangent lines hold only
-           that far) */
+        /* trust region (see above): the step shrunk until no landmark
+           moves more than FIT_TRUST px across the outline nor slides
+           beyond its limit along it */
         double far = 0.0, worst = 0.0;
         for (int i = 0; i < n; i++) {
             const double px = a->pts[2 * i] - pose->tx, py = a->pts[2 * i + 1] - pose->ty;

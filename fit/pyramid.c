@@ -114,16 +114,14 @@ static int clampi(int v, int lo, int hi)
 #endif
 #endif
 
-#ifdef PYR_VECTOR
-#define ROWS_LANES 8
 #define ROWS_NAME(x) x##_8
 #define ROWS_TARGET
+#ifdef PYR_VECTOR
+#define ROWS_LANES 8
 #define ROWS_EVEN(a, b) __builtin_shufflevector(a, b, 0, 2, 4, 6, 8, 10, 12, 14)
 #define ROWS_ODD(a, b) __builtin_shufflevector(a, b, 1, 3, 5, 7, 9, 11, 13, 15)
 #else
 #define ROWS_LANES 0
-#define ROWS_NAME(x) x##_8
-#define ROWS_TARGET
 #endif
 #include "pyramid_rows.h"
 #undef ROWS_LANES
