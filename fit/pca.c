@@ -130,8 +130,9 @@ static int check_params(const mb_pca_params *p, char *err)
     return MB_OK;
 }
 
-int mb_pca_compute(const double *x, int ld, int d, int m,
-                   const mb_pca_params *p, mb_pca *out, char *err)
+/* The arguments both entry points check, in this order; clears *out. */
+static int check_data(const double *x, int ld, int d, int m, mb_pca *out,
+                      char *err)
 {
     if (!x || !out)
         return mb_err_set(err, MB_EINVAL,
@@ -145,6 +146,15 @@ int mb_pca_compute(const double *x, int ld, int d, int m,
     if (m < 2)
         return mb_err_set(err, MB_EDEGENERATE,
                           "PCA needs at least 2 samples, got %d", m);
+    return MB_OK;
+}
+
+int mb_pca_compute(const double *x, int ld, int d, int m,
+                   const mb_pca_params *p, mb_pca *out, char *err)
+{
+    int rc = check_data(x, ld, d, m, out, err);
+    if (rc < 0)
+        return rc;
     double *copy = mb_big_alloc((size_t)d * (size_t)m * sizeof *copy);
     if (!copy)
         return mb_err_set(err, MB_ENOMEM,
@@ -153,7 +163,7 @@ int mb_pca_compute(const double *x, int ld, int d, int m,
     for (int j = 0; j < m; j++)
         memcpy(copy + (size_t)j * (size_t)d, x + (size_t)j * (size_t)ld,
                (size_t)d * sizeof *copy);
-    int rc = mb_pca_compute_inplace(copy, d, d, m, p, out, err);
+    rc = mb_pca_compute_inplace(copy, d, d, m, p, out, err);
     free(copy);
     return rc;
 }
@@ -166,19 +176,10 @@ int mb_pca_compute_inplace(double *x, int ld, int d, int m,
         mb_pca_params_default(&defaults);
         p = &defaults;
     }
-    if (!x || !out)
-        return mb_err_set(err, MB_EINVAL,
-                          "PCA: data and result must not be NULL");
-    memset(out, 0, sizeof *out);
-    if (d < 1 || ld < d)
-        return mb_err_set(err, MB_EINVAL,
-                          "PCA: dimension %d must be >= 1 and the leading "
-                          "dimension %d >= it",
-                          d, ld);
-    if (m < 2)
-        return mb_err_set(err, MB_EDEGENERATE,
-                          "PCA needs at least 2 samples, got %d", m);
-    int rc = check_params(p, err);
+    int rc = check_data(x, ld, d, m, out, err);
+    if (rc < 0)
+        return rc;
+    rc = check_params(p, err);
     if (rc < 0)
         return rc;
 

@@ -20,34 +20,6 @@
 
 /* ---- writing ---- */
 
-static void add(cJSON *obj, const char *key, cJSON *item, int *ok)
-{
-    if (!item || !cJSON_AddItemToObject(obj, key, item)) {
-        cJSON_Delete(item);
-        *ok = 0;
-    }
-}
-
-static void push(cJSON *array, cJSON *item, int *ok)
-{
-    if (!item || !cJSON_AddItemToArray(array, item)) {
-        cJSON_Delete(item);
-        *ok = 0;
-    }
-}
-
-static cJSON *raw_array(const double *v, int n, int *ok)
-{
-    cJSON *a = cJSON_CreateArray();
-    if (!a) {
-        *ok = 0;
-        return NULL;
-    }
-    for (int i = 0; i < n; i++)
-        push(a, mb_json_raw_number(v[i]), ok);
-    return a;
-}
-
 static int check_finite(const mb_calib *c, char *err)
 {
     const double v[] = {c->pitch, c->rms_px, c->worst_px, c->coverage};
@@ -92,66 +64,71 @@ int mb_calib_file_print(const mb_calib *cal, char **text, size_t *len,
     cJSON *root = cJSON_CreateObject();
     if (!root)
         return mb_err_set(err, MB_ENOMEM, "calibration to save: out of memory");
-    add(root, "format", cJSON_CreateString(MB_CALIB_FORMAT), &ok);
-    add(root, "version", cJSON_CreateNumber(MB_CALIB_VERSION), &ok);
-    add(root, "created", cJSON_CreateString(cal->created), &ok);
+    mb_json_add(root, "format", cJSON_CreateString(MB_CALIB_FORMAT), &ok);
+    mb_json_add(root, "version", cJSON_CreateNumber(MB_CALIB_VERSION), &ok);
+    mb_json_add(root, "created", cJSON_CreateString(cal->created), &ok);
     cJSON *fr = cJSON_CreateObject();
-    add(root, "frame", fr, &ok);
+    mb_json_add(root, "frame", fr, &ok);
     if (fr) {
-        add(fr, "width", cJSON_CreateNumber(cal->width), &ok);
-        add(fr, "height", cJSON_CreateNumber(cal->height), &ok);
+        mb_json_add(fr, "width", cJSON_CreateNumber(cal->width), &ok);
+        mb_json_add(fr, "height", cJSON_CreateNumber(cal->height), &ok);
     }
     cJSON *tg = cJSON_CreateObject();
-    add(root, "target", tg, &ok);
+    mb_json_add(root, "target", tg, &ok);
     if (tg) {
-        add(tg, "rows", cJSON_CreateNumber(cal->rows), &ok);
-        add(tg, "cols", cJSON_CreateNumber(cal->cols), &ok);
-        add(tg, "pitch_mm", mb_json_raw_number(cal->pitch), &ok);
+        mb_json_add(tg, "rows", cJSON_CreateNumber(cal->rows), &ok);
+        mb_json_add(tg, "cols", cJSON_CreateNumber(cal->cols), &ok);
+        mb_json_add(tg, "pitch_mm", mb_json_raw_number(cal->pitch), &ok);
     }
     cJSON *mo = cJSON_CreateObject();
-    add(root, "model", mo, &ok);
+    mb_json_add(root, "model", mo, &ok);
     if (mo) {
         cJSON *rows = cJSON_CreateArray();
-        add(mo, "plane_to_image", rows, &ok);
+        mb_json_add(mo, "plane_to_image", rows, &ok);
         for (int r = 0; r < 3 && rows; r++) {
             double row[3] = {cal->h[r], cal->h[r + 3], cal->h[r + 6]};
-            push(rows, raw_array(row, 3, &ok), &ok);
+            mb_json_push(rows, mb_json_raw_array(row, 3, &ok), &ok);
         }
         cJSON *d = cJSON_CreateObject();
-        add(mo, "distortion", d, &ok);
+        mb_json_add(mo, "distortion", d, &ok);
         if (d) {
             double c[2] = {cal->cx, cal->cy};
-            add(d, "centre_px", raw_array(c, 2, &ok), &ok);
-            add(d, "radius_px", mb_json_raw_number(cal->radius), &ok);
-            add(d, "k1", mb_json_raw_number(cal->k1), &ok);
-            add(d, "k2", mb_json_raw_number(cal->k2), &ok);
-            add(d, "p1", mb_json_raw_number(cal->p1), &ok);
-            add(d, "p2", mb_json_raw_number(cal->p2), &ok);
+            mb_json_add(d, "centre_px", mb_json_raw_array(c, 2, &ok), &ok);
+            mb_json_add(d, "radius_px", mb_json_raw_number(cal->radius), &ok);
+            mb_json_add(d, "k1", mb_json_raw_number(cal->k1), &ok);
+            mb_json_add(d, "k2", mb_json_raw_number(cal->k2), &ok);
+            mb_json_add(d, "p1", mb_json_raw_number(cal->p1), &ok);
+            mb_json_add(d, "p2", mb_json_raw_number(cal->p2), &ok);
         }
     }
     cJSON *re = cJSON_CreateObject();
-    add(root, "residuals", re, &ok);
+    mb_json_add(root, "residuals", re, &ok);
     if (re) {
-        add(re, "frames", cJSON_CreateNumber(cal->n_frames), &ok);
-        add(re, "points_per_frame", cJSON_CreateNumber(cal->n_points), &ok);
-        add(re, "rms_px", mb_json_raw_number(cal->rms_px), &ok);
-        add(re, "worst_px", mb_json_raw_number(cal->worst_px), &ok);
-        add(re, "worst_frame", cJSON_CreateNumber(cal->worst_frame), &ok);
-        add(re, "worst_point", cJSON_CreateNumber(cal->worst_point), &ok);
-        add(re, "coverage", mb_json_raw_number(cal->coverage), &ok);
-        add(re, "iterations", cJSON_CreateNumber(cal->iterations), &ok);
-        add(re, "frame_rms_px",
-            raw_array(cal->frame_rms_px, cal->n_frames, &ok), &ok);
+        mb_json_add(re, "frames", cJSON_CreateNumber(cal->n_frames), &ok);
+        mb_json_add(re, "points_per_frame", cJSON_CreateNumber(cal->n_points),
+                    &ok);
+        mb_json_add(re, "rms_px", mb_json_raw_number(cal->rms_px), &ok);
+        mb_json_add(re, "worst_px", mb_json_raw_number(cal->worst_px), &ok);
+        mb_json_add(re, "worst_frame", cJSON_CreateNumber(cal->worst_frame),
+                    &ok);
+        mb_json_add(re, "worst_point", cJSON_CreateNumber(cal->worst_point),
+                    &ok);
+        mb_json_add(re, "coverage", mb_json_raw_number(cal->coverage), &ok);
+        mb_json_add(re, "iterations", cJSON_CreateNumber(cal->iterations), &ok);
+        mb_json_add(re, "frame_rms_px",
+                    mb_json_raw_array(cal->frame_rms_px, cal->n_frames, &ok),
+                    &ok);
     }
     cJSON *po = cJSON_CreateArray();
-    add(root, "poses", po, &ok);
+    mb_json_add(root, "poses", po, &ok);
     for (int f = 0; f < cal->n_frames && po; f++) {
         cJSON *p = cJSON_CreateObject();
-        push(po, p, &ok);
+        mb_json_push(po, p, &ok);
         if (p) {
-            add(p, "angle_deg", mb_json_raw_number(cal->frame_angle_deg[f]),
-                &ok);
-            add(p, "shift_mm", raw_array(cal->frame_shift_mm[f], 2, &ok), &ok);
+            mb_json_add(p, "angle_deg",
+                        mb_json_raw_number(cal->frame_angle_deg[f]), &ok);
+            mb_json_add(p, "shift_mm",
+                        mb_json_raw_array(cal->frame_shift_mm[f], 2, &ok), &ok);
         }
     }
     char *s = ok ? cJSON_Print(root) : NULL;

@@ -348,3 +348,31 @@ cJSON *mb_json_raw_number(double v)
     mb_json_format_double(v, buf);
     return cJSON_CreateRaw(buf);
 }
+
+void mb_json_add(cJSON *obj, const char *key, cJSON *item, int *ok)
+{
+    if (!item || !cJSON_AddItemToObject(obj, key, item)) {
+        cJSON_Delete(item);
+        *ok = 0;
+    }
+}
+
+void mb_json_push(cJSON *array, cJSON *item, int *ok)
+{
+    if (!item || !cJSON_AddItemToArray(array, item)) {
+        cJSON_Delete(item);
+        *ok = 0;
+    }
+}
+
+cJSON *mb_json_raw_array(const double *v, size_t n, int *ok)
+{
+    cJSON *a = cJSON_CreateArray();
+    if (!a) {
+        *ok = 0;
+        return NULL;
+    }
+    for (size_t i = 0; i < n && *ok; i++)
+        mb_json_push(a, mb_json_raw_number(v[i]), ok);
+    return a;
+}

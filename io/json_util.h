@@ -122,4 +122,20 @@ void mb_json_format_double(double v, char buf[MB_JSON_NUMBER_LEN]);
     memory. v must be finite. */
 cJSON *mb_json_raw_number(double v);
 
+/* Building documents. Each takes the writer's running *ok and clears it on
+   failure, so a writer checks once at the end (and then discards the
+   document). */
+
+/** Add item to obj under key; a NULL item (a failed create) or a failed add
+    clears *ok, and the item is freed. */
+void mb_json_add(cJSON *obj, const char *key, cJSON *item, int *ok);
+
+/** Append item to array; as mb_json_add. */
+void mb_json_push(cJSON *array, cJSON *item, int *ok);
+
+/** An array of mb_json_raw_number(v[i]), i < n; stops at the first
+    failure (a non-finite value, out of memory), clearing *ok. NULL only
+    when the array itself could not be made. */
+cJSON *mb_json_raw_array(const double *v, size_t n, int *ok);
+
 #endif

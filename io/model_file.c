@@ -44,35 +44,6 @@ static int payload_crc(const cJSON *payload, unsigned long *crc)
 
 /* ---- saving ---- */
 
-/* Add item to obj; on a NULL item or a failed add, clear *ok. */
-static void add(cJSON *obj, const char *key, cJSON *item, int *ok)
-{
-    if (!item || !cJSON_AddItemToObject(obj, key, item)) {
-        cJSON_Delete(item);
-        *ok = 0;
-    }
-}
-
-static void push(cJSON *array, cJSON *item, int *ok)
-{
-    if (!item || !cJSON_AddItemToArray(array, item)) {
-        cJSON_Delete(item);
-        *ok = 0;
-    }
-}
-
-static cJSON *raw_array(const double *v, int n, int *ok)
-{
-    cJSON *a = cJSON_CreateArray();
-    if (!a) {
-        *ok = 0;
-        return NULL;
-    }
-    for (int i = 0; i < n && *ok; i++)
-        push(a, mb_json_raw_number(v[i]), ok);
-    return a;
-}
-
 /* The first non-finite value of v[0..n-1], or -1. */
 static int first_non_finite(const double *v, int n)
 {
@@ -113,40 +84,46 @@ static cJSON *build_payload(const mb_shape_model *m)
     cJSON *tr = cJSON_CreateObject();
     cJSON *lay = cJSON_CreateObject();
     cJSON *sh = cJSON_CreateObject();
-    add(p, "training", tr, &ok);
-    add(p, "layout", lay, &ok);
-    add(p, "shape", sh, &ok);
+    mb_json_add(p, "training", tr, &ok);
+    mb_json_add(p, "layout", lay, &ok);
+    mb_json_add(p, "shape", sh, &ok);
     if (!ok) {
         cJSON_Delete(p);
         return NULL;
     }
-    add(tr, "samples", cJSON_CreateNumber(ti->n_samples), &ok);
-    add(tr, "gpa_iterations", cJSON_CreateNumber(ti->gpa_iterations), &ok);
-    add(tr, "gpa_converged", cJSON_CreateBool(ti->gpa_converged != 0), &ok);
-    add(tr, "variance_fraction", mb_json_raw_number(ti->variance_fraction),
-        &ok);
-    add(tr, "fixed_modes", cJSON_CreateNumber(ti->fixed_modes), &ok);
-    add(tr, "created", cJSON_CreateString(ti->created), &ok);
-    add(tr, "source", cJSON_CreateString(ti->source), &ok);
+    mb_json_add(tr, "samples", cJSON_CreateNumber(ti->n_samples), &ok);
+    mb_json_add(tr, "gpa_iterations", cJSON_CreateNumber(ti->gpa_iterations),
+                &ok);
+    mb_json_add(tr, "gpa_converged", cJSON_CreateBool(ti->gpa_converged != 0),
+                &ok);
+    mb_json_add(tr, "variance_fraction",
+                mb_json_raw_number(ti->variance_fraction), &ok);
+    mb_json_add(tr, "fixed_modes", cJSON_CreateNumber(ti->fixed_modes), &ok);
+    mb_json_add(tr, "created", cJSON_CreateString(ti->created), &ok);
+    mb_json_add(tr, "source", cJSON_CreateString(ti->source), &ok);
 
     cJSON *counts = cJSON_CreateArray();
-    add(lay, "outlines", counts, &ok);
+    mb_json_add(lay, "outlines", counts, &ok);
     for (int i = 0; ok && i < l->n_outlines; i++)
-        push(counts, cJSON_CreateNumber(l->counts[i]), &ok);
+        mb_json_push(counts, cJSON_CreateNumber(l->counts[i]), &ok);
 
-    add(sh, "dim", cJSON_CreateNumber(d), &ok);
-    add(sh, "modes", cJSON_CreateNumber(k), &ok);
+    mb_json_add(sh, "dim", cJSON_CreateNumber(d), &ok);
+    mb_json_add(sh, "modes", cJSON_CreateNumber(k), &ok);
     if (ok)
-        add(sh, "mean", raw_array(mb_shape_model_mean(m), d, &ok), &ok);
+        mb_json_add(sh, "mean",
+                    mb_json_raw_array(mb_shape_model_mean(m), d, &ok), &ok);
     if (ok)
-        add(sh, "eigenvalues",
-            raw_array(mb_shape_model_eig(m), mb_shape_model_n_eig(m), &ok),
-            &ok);
+        mb_json_add(sh, "eigenvalues",
+                    mb_json_raw_array(mb_shape_model_eig(m),
+                                      mb_shape_model_n_eig(m), &ok),
+                    &ok);
     cJSON *vecs = cJSON_CreateArray();
-    add(sh, "vectors", vecs, &ok);
+    mb_json_add(sh, "vectors", vecs, &ok);
     for (int j = 0; ok && j < k; j++)
-        push(vecs, raw_array(mb_shape_model_modes(m) + (size_t)j * d, d, &ok),
-             &ok);
+        mb_json_push(
+            vecs,
+            mb_json_raw_array(mb_shape_model_modes(m) + (size_t)j * d, d, &ok),
+            &ok);
     if (!ok) {
         cJSON_Delete(p);
         return NULL;
@@ -191,9 +168,9 @@ static int print_doc(const mb_shape_model *m, const mb_part_model *pm,
     root = cJSON_CreateObject();
     if (!root)
         goto nomem;
-    add(root, "format", cJSON_CreateString(MB_MODEL_FORMAT), &ok);
-    add(root, "version", cJSON_CreateNumber(MB_MODEL_VERSION), &ok);
-    add(root, "checksum", cJSON_CreateString(sum), &ok);
+    mb_json_add(root, "format", cJSON_CreateString(MB_MODEL_FORMAT), &ok);
+    mb_json_add(root, "version", cJSON_CreateNumber(MB_MODEL_VERSION), &ok);
+    mb_json_add(root, "checksum", cJSON_CreateString(sum), &ok);
     if (!ok)
         goto nomem;
     if (!cJSON_AddItemToObject(root, "payload", payload))

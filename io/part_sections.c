@@ -15,32 +15,13 @@
 
 static void put(cJSON *o, const char *key, double v, int *ok)
 {
-    cJSON *item = isfinite(v) ? mb_json_raw_number(v) : NULL;
-    if (!item || !cJSON_AddItemToObject(o, key, item)) {
-        cJSON_Delete(item);
-        *ok = 0;
-    }
+    mb_json_add(o, key, mb_json_raw_number(v), ok);
 }
 
 static void put_array(cJSON *o, const char *key, const double *v, size_t n,
                       int *ok)
 {
-    cJSON *a = cJSON_CreateArray();
-    if (!a) {
-        *ok = 0;
-        return;
-    }
-    for (size_t i = 0; i < n && *ok; i++) {
-        cJSON *item = isfinite(v[i]) ? mb_json_raw_number(v[i]) : NULL;
-        if (!item || !cJSON_AddItemToArray(a, item)) {
-            cJSON_Delete(item);
-            *ok = 0;
-        }
-    }
-    if (!*ok || !cJSON_AddItemToObject(o, key, a)) {
-        cJSON_Delete(a);
-        *ok = 0;
-    }
+    mb_json_add(o, key, mb_json_raw_array(v, n, ok), ok);
 }
 
 static cJSON *section(cJSON *payload, const char *key, int *ok)
