@@ -79,6 +79,22 @@ static int params_check(const mb_profile_params *p)
     return MB_OK;
 }
 
+/* The checks the model and the learner share; who names the caller in
+   the sentence ("profile model: invalid layout"). */
+static int check_layout_params(const mb_layout *layout,
+                               const mb_profile_params *p, const char *who,
+                               char *err)
+{
+    if (mb_layout_check(layout) != MB_OK)
+        return mb_err_set(err, MB_EINVAL, "%s: invalid layout", who);
+    if (params_check(p) != MB_OK)
+        return mb_err_set(err, MB_EINVAL,
+                          "%s: levels must be 1..%d, half length 1..%d, "
+                          "shrink 0..1 and floor >= 0",
+                          who, MB_PYRAMID_MAX_LEVELS, MB_PROFILE_MAX_HALF);
+    return MB_OK;
+}
+
 /* Shoelace sum of outline points (twice the signed area; positive when the
    points run clockwise on screen with y down). */
 static double twice_area(const double *xy, int n)
@@ -237,13 +253,9 @@ int mb_profile_model_create(const mb_layout *layout,
         *out = NULL;
     if (!layout || !p || !stats || !means || !covs || !out)
         return mb_err_set(err, MB_EINVAL, "profile model: missing argument");
-    if (mb_layout_check(layout) != MB_OK)
-        return mb_err_set(err, MB_EINVAL, "profile model: invalid layout");
-    if (params_check(p) != MB_OK)
-        return mb_err_set(err, MB_EINVAL,
-                          "profile model: levels must be 1..%d, half length "
-                          "1..%d, shrink 0..1 and floor >= 0",
-                          MB_PYRAMID_MAX_LEVELS, MB_PROFILE_MAX_HALF);
+    int rc = check_layout_params(layout, p, "profile model", err);
+    if (rc < 0)
+        return rc;
     if (stats->n_samples < 2)
         return mb_err_set(err, MB_EINVAL,
                           "profile model: needs at least 2 training frames, "
@@ -280,7 +292,7 @@ int mb_profile_model_create(const mb_layout *layout,
         }
     }
     mb_profile_model *m = NULL;
-    int rc = model_alloc(layout, p, &m);
+    rc = model_alloc(layout, p, &m);
     if (rc != MB_OK)
         return mb_err_set(err, rc, "profile model: out of memory");
     m->stats = *stats;
@@ -384,13 +396,9 @@ int mb_profile_learner_create(const mb_layout *layout,
     }
     if (!layout || !out)
         return mb_err_set(err, MB_EINVAL, "profile learner: missing argument");
-    if (mb_layout_check(layout) != MB_OK)
-        return mb_err_set(err, MB_EINVAL, "profile learner: invalid layout");
-    if (params_check(p) != MB_OK)
-        return mb_err_set(err, MB_EINVAL,
-                          "profile learner: levels must be 1..%d, half "
-                          "length 1..%d, shrink 0..1 and floor >= 0",
-                          MB_PYRAMID_MAX_LEVELS, MB_PROFILE_MAX_HALF);
+    int rc = check_layout_params(layout, p, "profile learner", err);
+    if (rc < 0)
+        return rc;
     mb_profile_learner *l = calloc(1, sizeof *l);
     if (!l)
         return mb_err_set(err, MB_ENOMEM, "profile learner: out of memory");

@@ -952,29 +952,31 @@ bad:
 
 /* ---- the cJSON reference ---------------------------------------------- */
 
-static void cj_value(const cJSON *v, vtype *t, double *num, const char **str,
-                     size_t *len)
+/* Store member v into field f of base, as the scanner would. */
+static void cj_set(const cJSON *v, void *base, const field *f)
 {
-    *num = 0;
-    *str = "";
-    *len = 0;
+    vtype t;
+    double num = 0;
+    const char *str = "";
+    size_t len = 0;
     if (cJSON_IsNull(v)) {
-        *t = V_NULL;
+        t = V_NULL;
     } else if (cJSON_IsBool(v)) {
-        *t = V_BOOL;
-        *num = cJSON_IsTrue(v);
+        t = V_BOOL;
+        num = cJSON_IsTrue(v);
     } else if (cJSON_IsNumber(v)) {
-        *t = V_NUM;
-        *num = v->valuedouble;
+        t = V_NUM;
+        num = v->valuedouble;
     } else if (cJSON_IsString(v)) {
-        *t = V_STR;
-        *str = v->valuestring;
-        *len = strlen(v->valuestring);
-        if (*len > SBUF - 1)
-            *len = SBUF - 1; /* as the scanner's scratch */
+        t = V_STR;
+        str = v->valuestring;
+        len = strlen(v->valuestring);
+        if (len > SBUF - 1)
+            len = SBUF - 1; /* as the scanner's scratch */
     } else {
-        *t = V_OTHER;
+        t = V_OTHER;
     }
+    set_field(base, f, t, num, str, len);
 }
 
 static void cj_object(const cJSON *o, void *base, const field *tab, size_t n)
@@ -983,14 +985,8 @@ static void cj_object(const cJSON *o, void *base, const field *tab, size_t n)
         if (!c->string || strlen(c->string) >= 32)
             continue;
         const field *f = find_field(tab, n, c->string);
-        if (!f)
-            continue;
-        vtype t;
-        double num;
-        const char *str;
-        size_t len;
-        cj_value(c, &t, &num, &str, &len);
-        set_field(base, f, t, num, str, len);
+        if (f)
+            cj_set(c, base, f);
     }
 }
 
@@ -1059,14 +1055,8 @@ static int parse_cjson(const char *line, size_t len, mb_slog_record *r,
             version = c->valuedouble;
         } else {
             const field *f = find_field(top_fields, N_TOP, key);
-            if (!f)
-                continue;
-            vtype t;
-            double num;
-            const char *str;
-            size_t slen;
-            cj_value(c, &t, &num, &str, &slen);
-            set_field(r, f, t, num, str, slen);
+            if (f)
+                cj_set(c, r, f);
         }
     }
     cJSON_Delete(root);
